@@ -1,0 +1,228 @@
+"""The ``curvewright`` command line. Thin: parse, call core, print, write.
+
+Bad input exits with code 2 and a one-paragraph message on stderr, never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+import warnings
+
+import numpy as np
+
+import core
+from core.errors import CurvewrightError, NumericalWarning, ParameterError, message
+from core.files import write_atomic
+from core.table import read_table
+
+EXIT_BAD_INPUT = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, text):  # argparse's own errors also exit 2, with our shape
+        self.print_usage(sys.stderr)
+        sys.stderr.write(f"error: {text}\n")
+        raise SystemExit(EXIT_BAD_INPUT)
+
+
+def parse_degrees(spec: str) -> list[int]:
+    """'0-15', '3', '1,2,5' or '2-4,8' -> sorted degrees."""
+    out = set()
+    try:
+        for part in str(spec).split(","):
+            part = part.strip()
+            if "-" in part:
+                a, b = part.split("-", 1)
+                out.update(range(int(a), int(b) + 1))
+            else:
+                out.add(int(part))
+    except ValueError:
+        raise ParameterError(message("Option --degrees", "a range like 0-15 or a list like 1,2,5", repr(spec))) from None
+    if not out or min(out) < 0 or max(out) > 30:
+        raise ParameterError(message("Option --degrees", "degrees from 0 to 30", repr(spec)))
+    return sorted(out)
+
+
+def parse_grid(spec: str, *, log: bool, option: str) -> np.ndarray:
+    """'START:STOP:COUNT' -> a log (or linear) grid; a single number -> that number."""
+    try:
+        parts = [float(p) for p in str(spec).split(":")]
+    except ValueError:
+        raise ParameterError(message(f"Option {option}", "START:STOP:COUNT or one number", repr(spec))) from None
+    if len(parts) == 1:
+        return np.array(parts)
+    if len(parts) != 3 or parts[2] != int(parts[2]) or parts[2] < 1:
+        raise ParameterError(message(f"Option {option}", "START:STOP:COUNT with a whole COUNT", repr(spec)))
+    a, b, c = parts
+    if log:
+        if a <= 0 or b <= 0:
+            raise ParameterError(message(f"Option {option}", "positive START and STOP for a log grid (add 0 with --with-zero)", repr(spec)))
+        return np.logspace(math.log10(a), math.log10(b), int(c))
+    return np.linspace(a, b, int(c))
+
+
+def _data_args(p, need_y=True):
+    p.add_argument("data", help="CSV/TSV, .xlsx or .parquet file with a header row")
+    p.add_argument("--x", required=True, help="x column (name or 1-based position)")
+    if need_y:
+        p.add_argument("--y", required=True, help="response column (name or 1-based position)")
+    p.add_argument("--weights", help="weight column (positive)")
+    p.add_argument("--uncertainty", help="standard-uncertainty column u (weight = 1/u^2)")
+    p.add_argument("--missing", choices=["refuse", "drop"], default="refuse")
+    p.add_argument("--sheet", help="worksheet of an .xlsx file (default: the first)")
+    p.add_argument("--no-intercept", action="store_true", help="fit through the origin")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="curvewright", description="Choose how flexible a fitted curve may be.")
+    p.add_argument("--version", action="version", version=f"curvewright {core.__version__}")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    f = sub.add_parser("fit", help="fit one degree and lambda; print the coefficient table")
+    _data_args(f)
+    f.add_argument("--degree", type=int, required=True)
+    f.add_argument("--lambda", dest="lam", type=float, default=0.0)
+    f.add_argument("--json", help="write the fit as JSON here")
+    f.add_argument("--force", action="store_true", help="overwrite an existing output file")
+
+    s = sub.add_parser("sweep", help="cross-validate a degree x lambda grid; print the recommendation")
+    _data_args(s)
+    s.add_argument("--degrees", default="0-15")
+    s.add_argument("--lambdas", default="1e-6:1e4:30", help="log grid START:STOP:COUNT")
+    s.add_argument("--with-zero", action="store_true", help="add lambda = 0 to the grid")
+    s.add_argument("--folds", type=int, default=10)
+    s.add_argument("--repeats", type=int, default=1)
+    g = s.add_mutually_exclusive_group()
+    g.add_argument("--group", help="group column: rows sharing a value stay in one fold")
+    g.add_argument("--fold-column", help="explicit fold column")
+    s.add_argument("--seed", type=int, default=0)
+    s.add_argument("--test-fraction", type=float, default=0.0)
+    s.add_argument("--json", help="write the surface as JSON here")
+    s.add_argument("--force", action="store_true")
+
+    lc = sub.add_parser("learn", help="learning curve of one configuration")
+    _data_args(lc)
+    lc.add_argument("--degree", type=int, required=True)
+    lc.add_argument("--lambda", dest="lam", type=float, default=0.0)
+    lc.add_argument("--sizes", default="0.1:1:10", help="fractions START:STOP:COUNT")
+    lc.add_argument("--folds", type=int, default=10)
+    lc.add_argument("--repeats", type=int, default=3)
+    lc.add_argument("--seed", type=int, default=0)
+    lc.add_argument("--json")
+    lc.add_argument("--force", action="store_true")
+    return p
+
+
+def _read(args, extra=None):
+    table = read_table(args.data, x=args.x, y=args.y, weights=args.weights,
+                       uncertainty=args.uncertainty, missing=args.missing, sheet=args.sheet,
+                       **(extra or {}))
+    for note in table.notices:
+        print(f"note: {note}", file=sys.stderr)
+    if table.rows_dropped:
+        print(f"note: dropped {len(table.rows_dropped)} row(s) with missing values "
+              f"(rows {', '.join(map(str, table.rows_dropped[:10]))}"
+              f"{' ...' if len(table.rows_dropped) > 10 else ''}).", file=sys.stderr)
+    return table
+
+
+def _fmt(v) -> str:
+    if v is None or (isinstance(v, float) and not math.isfinite(v)):
+        return "-"
+    return f"{v:.10g}"
+
+
+def cmd_fit(args, out):
+    t = _read(args)
+    r = core.fit(t.x.values, t.y.values, args.degree, args.lam, weights=t.weights,
+                 intercept=not args.no_intercept)
+    print(f"degree {r.degree}, lambda {_fmt(r.lam)}, {r.n} rows"
+          + (", weighted" if r.weighted else "") + ("" if r.intercept else ", through origin"), file=out)
+    print(f"{'term':>6}  {'estimate':>20}  {'std error':>18}", file=out)
+    for row in r.power_table():
+        print(f"{row['term']:>6}  {row['estimate']:>20.12g}  {_fmt(row['std_error']):>18}", file=out)
+    print(f"residual SD {_fmt(r.residual_sd)}   R-squared {_fmt(r.r_squared)}"
+          f"{'' if r.intercept else ' (uncentred)'}   residual df {_fmt(r.df_residual)}"
+          f"   effective df {_fmt(r.effective_df)}", file=out)
+    if args.json:
+        doc = r.to_dict()
+        doc["data"] = {"file": t.path, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name}
+        write_atomic(args.json, json.dumps(doc, indent=2), force=args.force)
+    return 0
+
+
+def cmd_sweep(args, out):
+    extra = {"group": args.group, "fold": args.fold_column}
+    t = _read(args, extra)
+    degrees = parse_degrees(args.degrees)
+    lams = parse_grid(args.lambdas, log=True, option="--lambdas")
+    if args.with_zero:
+        lams = np.concatenate([[0.0], lams])
+    s = core.sweep(t.x.values, t.y.values, degrees, lams, folds=args.folds, repeats=args.repeats,
+                   groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
+                   test_fraction=args.test_fraction, intercept=not args.no_intercept)
+    f = s.folds
+    print(f"{t.n} rows ({s.n_train} for cross-validation, {f['n_test']} sealed); "
+          f"{f['scheme']} folds k={f['k']}, repeats={f['repeats']}, seed={f['seed']}", file=out)
+    for name, rec in s.recommended.items():
+        print(f"recommended ({name}): degree {rec.degree}, lambda {rec.lam:.4g} "
+              f"(grid {rec.grid_lambda:.3g}); CV RMSE {math.sqrt(rec.cv_mse):.6g} "
+              f"+/- {rec.cv_mse_se / (2 * math.sqrt(rec.cv_mse)):.2g}; effective df {rec.effective_df:.3g}",
+              file=out)
+        if rec.degree_at_edge:
+            print(f"  note: degree {rec.degree} is the top of the searched range; widen --degrees.", file=out)
+        if rec.lambda_at_edge:
+            print("  note: lambda is at the edge of the grid; widen --lambdas.", file=out)
+    print(f"\nCV RMSE by degree (best lambda of each):", file=out)
+    print(f"{'degree':>6}  {'lambda':>10}  {'CV RMSE':>12}  {'SE(MSE)':>10}  {'train RMSE':>12}", file=out)
+    for i, d in enumerate(s.degrees):
+        j = int(np.nanargmin(s.cv_mse[i]))
+        print(f"{d:>6}  {s.lambdas[j]:>10.3g}  {math.sqrt(s.cv_mse[i, j]):>12.6g}  "
+              f"{s.cv_mse_se[i, j]:>10.3g}  {math.sqrt(s.train_mse[i, j]):>12.6g}", file=out)
+    if args.json:
+        write_atomic(args.json, json.dumps(s.to_dict(), indent=2), force=args.force)
+    return 0
+
+
+def cmd_learn(args, out):
+    t = _read(args)
+    sizes = parse_grid(args.sizes, log=False, option="--sizes")
+    lc = core.learning_curve(t.x.values, t.y.values, args.degree, args.lam, sizes=sizes,
+                             folds=args.folds, repeats=args.repeats, seed=args.seed,
+                             weights=t.weights, intercept=not args.no_intercept)
+    print(f"learning curve: degree {lc.degree}, lambda {_fmt(lc.lam)}, {lc.folds}-fold x {lc.repeats}", file=out)
+    print(f"{'size':>6}  {'rows':>8}  {'train MSE':>12}  {'CV MSE':>12}  {'CV SE':>10}", file=out)
+    for i, s in enumerate(lc.sizes):
+        print(f"{s:>6.3g}  {lc.n_train[i]:>8.1f}  {_fmt(lc.train_mse[i]):>12}  {_fmt(lc.cv_mse[i]):>12}"
+              f"  {_fmt(lc.cv_mse_se[i]):>10}", file=out)
+    print(core.describe_learning_curve(lc), file=out)
+    if args.json:
+        write_atomic(args.json, json.dumps(lc.to_dict(), indent=2), force=args.force)
+    return 0
+
+
+COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn}
+
+
+def main(argv=None, out=None) -> int:
+    out = out or sys.stdout
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    handler = COMMANDS[args.command]
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", NumericalWarning)
+            code = handler(args, out)
+        for w in {str(c.message) for c in caught if issubclass(c.category, NumericalWarning)}:
+            print(f"warning: {w}", file=sys.stderr)
+        return code
+    except CurvewrightError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,174 @@
+"""Learning curves from one pass: training and CV error against training-set size.
+
+For repeat r every row gets a fold (k-fold, as in ``core.folds``) and a
+uniform draw u from ``default_rng([seed, 17, r])``. The training subset of
+size fraction s in fold f is the fold's training rows with u < s, so subsets
+are nested and a row's size bin is fixed in advance: one pass accumulates
+statistics per (repeat, fold, size bin), and every point of the curve is a
+sum of those cells. Each subset is scored on its own rows (training MSE)
+and on the whole held-out fold (CV MSE); means and standard errors are over
+repeats x folds.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .basis import Domain
+from .errors import ParameterError, message
+from .folds import make_plan
+from .moments import accumulate
+from .select import _fold_sums
+from .solve import FoldSolver, check_degree, check_lambdas
+from .validate import check_xyw
+
+__all__ = ["LearningCurve", "learning_curve", "describe_learning_curve"]
+
+
+@dataclass(frozen=True)
+class LearningCurve:
+    """Training and CV MSE against training-set size.
+
+    Attributes
+    ----------
+    sizes : ndarray of shape (m,)
+        Requested fractions of each fold's training rows.
+    n_train : ndarray of shape (m,)
+        Mean number of training rows actually used.
+    train_mse, train_mse_se, cv_mse, cv_mse_se : ndarray of shape (m,)
+        Means over repeats x folds and their standard errors (NaN where a
+        subset had fewer rows than parameters).
+    """
+
+    degree: int
+    lam: float
+    sizes: np.ndarray
+    n_train: np.ndarray
+    train_mse: np.ndarray = field(repr=False)
+    train_mse_se: np.ndarray = field(repr=False)
+    cv_mse: np.ndarray = field(repr=False)
+    cv_mse_se: np.ndarray = field(repr=False)
+    folds: int
+    repeats: int
+    seed: int
+
+    def to_dict(self) -> dict:
+        def lst(a):
+            return [None if not np.isfinite(v) else float(v) for v in a]
+        return {"degree": self.degree, "lambda": self.lam, "sizes": self.sizes.tolist(),
+                "n_train": self.n_train.tolist(), "train_mse": lst(self.train_mse),
+                "train_mse_se": lst(self.train_mse_se), "cv_mse": lst(self.cv_mse),
+                "cv_mse_se": lst(self.cv_mse_se), "folds": self.folds,
+                "repeats": self.repeats, "seed": self.seed,
+                "reading": describe_learning_curve(self)}
+
+
+def _sizes(sizes) -> np.ndarray:
+    s = np.unique(np.asarray(sizes, dtype=float))
+    if s.size == 0 or not np.all((s > 0) & (s <= 1)):
+        raise ParameterError(message("Parameter 'sizes'", "fractions in (0, 1]", sizes))
+    return s
+
+
+def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.0, 10),
+                   folds: int = 10, repeats: int = 3, seed: int = 0, weights=None, groups=None,
+                   test_fraction: float = 0.0, intercept: bool = True) -> LearningCurve:
+    """Learning curve of one configuration (see module docstring).
+
+    Parameters
+    ----------
+    x, y : array_like of shape (n,)
+    degree : int
+    lam : float
+    sizes : array_like
+        Fractions in (0, 1] of each fold's training rows.
+    folds, repeats, seed, weights, groups, test_fraction, intercept
+        As for ``core.sweep`` (the sealed rows are left out entirely).
+
+    Returns
+    -------
+    LearningCurve
+    """
+    degree = check_degree(degree)
+    lam = float(check_lambdas(lam)[0])
+    x, y, w = check_xyw(x, y, weights)
+    sizes = _sizes(sizes)
+    plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, seed=seed,
+                     test_fraction=test_fraction)
+    k, R, m = plan.k, plan.repeats, sizes.size
+    nb = m + 1
+    labels = np.full((R, x.size), -1, dtype=np.int32)
+    for r in range(R):
+        u = np.random.default_rng([seed, 17, r]).random(x.size)
+        b = np.searchsorted(sizes, u, side="right")
+        ok = plan.labels[r] >= 0
+        labels[r, ok] = (r * k + plan.labels[r, ok]) * nb + b[ok]
+    keep = ~plan.test_mask
+    domain = Domain.from_range(x[keep].min(), x[keep].max())
+    mom = accumulate(x, y, labels=labels, n_cells=R * k * nb, domain=domain, max_degree=degree,
+                     weights=None if weights is None else w)
+    G = mom.gram.reshape(R, k, nb, *mom.gram.shape[1:])
+    C = mom.counts.reshape(R, k, nb)
+    cum = np.cumsum(G, axis=2)          # rows with bin <= i: the subset of size i
+    ccum = np.cumsum(C, axis=2)
+    p = degree + 1 if intercept else max(degree, 1)
+    tr = np.full((R * k, m), np.nan)
+    cv = np.full((R * k, m), np.nan)
+    ntr = np.zeros((R * k, m))
+    for r in range(R):
+        held = G[r].sum(axis=1)          # whole fold
+        for i in range(m):
+            train = _fold_sums(cum[r, :, i])
+            counts = ccum[r, :, i].sum() - ccum[r, :, i]
+            for f in range(k):
+                ntr[r * k + f, i] = counts[f]
+                if counts[f] <= p:
+                    continue
+                sv = FoldSolver(train[f], domain, mom.y_shift, intercept)
+                theta = sv.coefficients(degree, [lam])
+                S = sv.working(train[f])
+                H = sv.working(held[f])
+                tr[r * k + f, i] = FoldSolver.sse(S, theta)[0] / S[0, 0]
+                cv[r * k + f, i] = FoldSolver.sse(H, theta)[0] / H[0, 0]
+
+    def mean_se(a):
+        cnt = np.sum(np.isfinite(a), axis=0)
+        mean = np.full(a.shape[1], np.nan)
+        se = np.full(a.shape[1], np.nan)
+        for j, c in enumerate(cnt):
+            col = a[np.isfinite(a[:, j]), j]
+            if c:
+                mean[j] = col.mean()
+            if c > 1:
+                se[j] = col.std(ddof=1) / math.sqrt(c)
+        return mean, se
+
+    trm, trs = mean_se(tr)
+    cvm, cvs = mean_se(cv)
+    return LearningCurve(degree, lam, sizes, ntr.mean(axis=0), trm, trs, cvm, cvs, k, R, int(seed))
+
+
+def describe_learning_curve(lc: LearningCurve) -> str:
+    """One sentence of guidance read off the curve's last points (not a certainty).
+
+    Compares the final gap between CV and training error with the CV error
+    itself, and whether CV error was still falling over the last sizes.
+    """
+    ok = np.isfinite(lc.cv_mse) & np.isfinite(lc.train_mse)
+    if ok.sum() < 2:
+        return "Too few usable sizes to read a trend; add rows or lower the degree."
+    cv, tr = lc.cv_mse[ok], lc.train_mse[ok]
+    gap = (cv[-1] - tr[-1]) / cv[-1] if cv[-1] > 0 else 0.0
+    half = max(1, len(cv) // 2)
+    still_falling = cv[-1] < cv[half - 1] * 0.97
+    if gap > 0.25:
+        return ("Large gap between CV and training error: the curve is likely fitting noise; "
+                "more data or a larger lambda (or a lower degree) should help.")
+    if still_falling:
+        return ("CV error is still falling with more rows: more data would likely help a little; "
+                "the gap to training error is modest.")
+    return ("Training and CV errors have converged: more data alone is unlikely to help; if the "
+            "error is too high, the curve may be too stiff (try a higher degree or smaller lambda).")

@@ -1,0 +1,231 @@
+"""One fit of the model to in-memory rows: coefficients, errors, summary statistics.
+
+See ``core.solve`` for the model. For lambda = 0 (ordinary or weighted least
+squares) the fit is computed from the rows themselves: least squares on the
+Legendre columns of mapped x (condition number near that of a well-spread
+design), refined twice with residuals evaluated in extended precision
+(``numpy.longdouble``), so exact-fit data give residuals near zero rather than
+near float rounding of y. Raw-x power coefficients and their standard errors
+are then converted from the Legendre form in high-precision arithmetic.
+For lambda > 0 the ridge solution comes from the rows' statistics (``core.solve``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.linalg import solve_triangular
+
+from .basis import Domain, legendre_columns, legendre_cov_to_power_se, legendre_to_power, legval
+from .errors import DataError, message
+from .moments import accumulate
+from .solve import FoldSolver, check_degree, check_lambdas
+from .validate import check_xyw
+
+__all__ = ["FitResult", "fit"]
+
+
+@dataclass(frozen=True)
+class FitResult:
+    """A fitted curve and its summary.
+
+    Attributes
+    ----------
+    degree, lam, intercept : the configuration.
+    domain : Domain
+        Mapping of raw x onto t in [-1, 1] used by ``legendre``.
+    legendre : ndarray of shape (degree + 1,)
+        Stable form: yhat = sum_j legendre[j] * P_j((x - center) / half_width).
+    power : ndarray of shape (degree + 1,)
+        Raw-x form: yhat = power[0] + power[1] x + ... + power[d] x^d (power[0] = 0
+        without intercept).
+    std_errors : ndarray of shape (degree + 1,) or None
+        Classical standard errors of ``power`` (lambda = 0 only; NaN for the
+        absent intercept).
+    residual_sd : float
+        sqrt(SSE / df_residual), SSE weighted.
+    r_squared : float
+        1 - SSE / SST; SST centred with intercept, uncentred (sum w y^2) without.
+    df_residual : float
+        n - p at lambda = 0, n - effective_df otherwise.
+    effective_df : float
+        sum s_j^2 / (s_j^2 + lambda) over the standardized design's singular
+        values, plus one for the intercept (ESL eq. 3.50); p at lambda = 0.
+    n : int
+    sse : float
+    train_mse : float
+        SSE / sum(w) (the plain mean squared error for unit weights).
+    weighted : bool
+    x_range : (float, float)
+    """
+
+    degree: int
+    lam: float
+    intercept: bool
+    domain: Domain
+    legendre: np.ndarray = field(repr=False)
+    power: np.ndarray = field(repr=False)
+    std_errors: np.ndarray | None = field(repr=False)
+    residual_sd: float
+    r_squared: float
+    df_residual: float
+    effective_df: float
+    n: int
+    sse: float
+    train_mse: float
+    weighted: bool
+    x_range: tuple
+
+    @property
+    def terms(self) -> list[str]:
+        first = 0 if self.intercept else 1
+        return ["1" if k == 0 else ("x" if k == 1 else f"x^{k}") for k in range(first, self.degree + 1)]
+
+    def predict(self, x) -> np.ndarray:
+        """Predictions at raw x, ndarray of shape (m,), from the stable form."""
+        x = np.asarray(x, dtype=float)
+        return legval(self.domain.map(x), self.legendre)
+
+    def power_table(self) -> list[dict]:
+        first = 0 if self.intercept else 1
+        out = []
+        for term, k in zip(self.terms, range(first, self.degree + 1)):
+            se = None if self.std_errors is None else float(self.std_errors[k])
+            out.append({"term": term, "estimate": float(self.power[k]), "std_error": se})
+        return out
+
+    def to_dict(self) -> dict:
+        return {
+            "degree": self.degree, "lambda": self.lam, "intercept": self.intercept,
+            "n": self.n, "weighted": self.weighted,
+            "power_coefficients": self.power_table(),
+            "legendre_coefficients": [float(v) for v in self.legendre],
+            "domain": self.domain.to_dict(),
+            "residual_sd": self.residual_sd, "r_squared": self.r_squared,
+            "df_residual": self.df_residual, "effective_df": self.effective_df,
+            "sse": self.sse, "train_mse": self.train_mse,
+            "x_range": list(self.x_range),
+        }
+
+
+def _ols_rows(x, y, w, degree, intercept, domain):
+    """Least squares on Legendre columns with extended-precision refinement."""
+    sw = np.sqrt(w)
+    ld = np.longdouble
+    p0 = legendre_columns(np.array([domain.map(0.0)]), degree)[0]
+
+    def design(t):
+        P = legendre_columns(t, degree)
+        return P if intercept else P[:, 1:] - p0[1:].astype(t.dtype)
+
+    X = design(domain.map(x))
+    Xw = X * sw[:, None]
+    theta = np.linalg.lstsq(Xw, y * sw, rcond=None)[0].astype(ld)
+    X_ld = design(domain.map(x, ld))
+    y_ld = y.astype(ld)
+    for _ in range(2):
+        r = y_ld - X_ld @ theta
+        delta = np.linalg.lstsq(Xw, r.astype(np.float64) * sw, rcond=None)[0]
+        theta = theta + delta.astype(ld)
+    r = y_ld - X_ld @ theta
+    sse = float(np.sum(w.astype(ld) * r * r))
+    R = np.linalg.qr(Xw, mode="r")
+    Rinv = solve_triangular(R, np.eye(R.shape[0]))
+    cov_unscaled = Rinv @ Rinv.T
+    if intercept:
+        legendre = theta.astype(np.float64)
+        power = legendre_to_power(domain, theta)
+        return legendre, power, sse, cov_unscaled, None
+    legendre = np.empty(degree + 1)
+    legendre[1:] = theta.astype(np.float64)
+    legendre[0] = float(-(theta @ p0[1:].astype(ld)))
+    power = np.concatenate([[0.0], legendre_to_power(domain, theta, first=1)])
+    return legendre, power, sse, cov_unscaled, p0
+
+
+def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = True) -> FitResult:
+    """Fit the regularized polynomial of one degree and lambda to all given rows.
+
+    Parameters
+    ----------
+    x, y : array_like of shape (n,)
+        Raw input and response.
+    degree : int
+        0 (constant) to 30.
+    lam : float
+        Ridge penalty on the standardized non-intercept coefficients; 0 is
+        ordinary (weighted) least squares.
+    weights : array_like of shape (n,), optional
+        Positive row weights (default 1).
+    intercept : bool
+        False fits through the origin (yhat(0) = 0).
+
+    Returns
+    -------
+    FitResult
+
+    Raises
+    ------
+    DataError
+        Non-finite values, non-positive weights, fewer distinct x than needed.
+    ParameterError
+        Degree or lambda out of range.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> x = np.arange(10.0); r = fit(x, 1 + 2 * x, 1)
+    >>> np.round(r.power, 12).tolist()
+    [1.0, 2.0]
+    """
+    degree = check_degree(degree)
+    lam = float(check_lambdas(lam)[0])
+    x, y, w = check_xyw(x, y, weights)
+    weighted = weights is not None
+    n = x.size
+    p = degree + 1 if intercept else degree
+    distinct = np.unique(x).size
+    if distinct < 2:
+        raise DataError(message("Column x", "at least two distinct values", f"only x = {x[0]!r}",
+                                "A curve cannot be fitted against a single x value"))
+    if lam == 0 and distinct < p + (0 if intercept else 0) and degree >= distinct:
+        raise DataError(message(
+            f"Degree {degree} at lambda = 0", f"at least {degree + 1} distinct x values",
+            distinct, "Lower the degree or use lambda > 0"))
+    domain = Domain.from_range(x.min(), x.max())
+    ybar = np.average(y, weights=w)
+    if intercept:
+        sst = float(np.sum(w.astype(np.longdouble) * (y.astype(np.longdouble) - np.longdouble(ybar)) ** 2))
+    else:
+        sst = float(np.sum(w.astype(np.longdouble) * y.astype(np.longdouble) ** 2))
+    se = None
+    if lam == 0.0:
+        if n <= p:
+            raise DataError(message(f"Rows for degree {degree}", f"more than {p} rows", n))
+        legendre, power, sse, cov_u, _ = _ols_rows(x, y, w, degree, intercept, domain)
+        df_res = float(n - p)
+        edf = float(p)
+        resid_sd = float(np.sqrt(sse / df_res))
+        first = 0 if intercept else 1
+        se_fit = legendre_cov_to_power_se(domain, resid_sd ** 2 * cov_u, first=first)
+        se = se_fit if intercept else np.concatenate([[np.nan], se_fit])
+    else:
+        M = accumulate(x, y, labels=np.zeros((1, n), dtype=np.int16), n_cells=1,
+                       domain=domain, max_degree=degree, weights=w)
+        solver = FoldSolver(M.gram[0], domain, M.y_shift, intercept)
+        theta = solver.coefficients(degree, [lam])[0]
+        theta[0] += solver.offset
+        legendre = theta
+        r = y - legval(domain.map(x), legendre)
+        sse = float(np.sum(w * r * r))
+        edf = float(solver.effective_df(degree, [lam])[0])
+        df_res = float(n - edf)
+        resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
+        power = legendre_to_power(domain, legendre)
+        if not intercept:
+            power[0] = 0.0
+    r2 = 1.0 - sse / sst if sst > 0 else float("nan")
+    return FitResult(degree, lam, bool(intercept), domain, np.asarray(legendre, float),
+                     np.asarray(power, float), se, resid_sd, float(r2), df_res, edf, int(n),
+                     float(sse), float(sse / np.sum(w)), weighted, (float(x.min()), float(x.max())))

@@ -1,0 +1,177 @@
+"""Fold assignments and the sealed test set.
+
+Every assignment is a deterministic function of the seed and the row order,
+documented here so a user can reproduce it without this code:
+
+* sealed test set: ``round(test_fraction * n)`` rows chosen by a permutation
+  drawn from ``numpy.random.default_rng([seed, 7])`` (whole groups when a group
+  column is given, taken in that permuted group order until the fraction is
+  reached); these rows never enter any fold.
+* k-fold, repeat r: a permutation of the remaining rows from
+  ``default_rng([seed, 11, r])``; the row at permuted position i goes to fold
+  ``i mod k`` (fold sizes differ by at most one).
+* grouped: the distinct groups are shuffled by ``default_rng([seed, 13, r])``
+  and each is put, in that order, into the fold with the fewest rows so far.
+* explicit: the distinct values of the fold column, sorted, become folds 0..k-1.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import DataError, ParameterError, message
+
+__all__ = ["FoldPlan", "make_plan"]
+
+
+@dataclass(frozen=True)
+class FoldPlan:
+    """Which fold each row belongs to, per repeat, and which rows are sealed.
+
+    Attributes
+    ----------
+    scheme : {"kfold", "group", "explicit"}
+    k : int
+        Folds per repeat.
+    repeats : int
+    seed : int
+    labels : ndarray of shape (repeats, n), int16
+        Fold of each row in each repeat; -1 for sealed-test rows.
+    test_mask : ndarray of shape (n,), bool
+    test_fraction : float
+    """
+
+    scheme: str
+    k: int
+    repeats: int
+    seed: int
+    labels: np.ndarray = field(repr=False)
+    test_mask: np.ndarray = field(repr=False)
+    test_fraction: float = 0.0
+
+    @property
+    def n(self) -> int:
+        return int(self.test_mask.shape[0])
+
+    @property
+    def n_test(self) -> int:
+        return int(self.test_mask.sum())
+
+    def to_dict(self) -> dict:
+        return {"scheme": self.scheme, "k": self.k, "repeats": self.repeats,
+                "seed": self.seed, "test_fraction": self.test_fraction,
+                "n_rows": self.n, "n_test": self.n_test}
+
+
+def _check_int(name: str, value, lo: int, hi: int | None = None) -> int:
+    ok = isinstance(value, (int, np.integer)) and not isinstance(value, bool)
+    if not ok or value < lo or (hi is not None and value > hi):
+        rng = f"an integer >= {lo}" if hi is None else f"an integer from {lo} to {hi}"
+        raise ParameterError(message(f"Parameter '{name}'", rng, value))
+    return int(value)
+
+
+def _sealed(n: int, test_fraction: float, seed: int, groups) -> np.ndarray:
+    if not (0.0 <= float(test_fraction) < 1.0):
+        raise ParameterError(message("Parameter 'test_fraction'", "a number in [0, 1)", test_fraction))
+    mask = np.zeros(n, dtype=bool)
+    n_test = int(round(test_fraction * n))
+    if n_test == 0:
+        return mask
+    rng = np.random.default_rng([seed, 7])
+    if groups is None:
+        mask[rng.permutation(n)[:n_test]] = True
+        return mask
+    uniq, inv = np.unique(groups, return_inverse=True)
+    sizes = np.bincount(inv)
+    taken = 0
+    for g in rng.permutation(len(uniq)):
+        if taken >= n_test:
+            break
+        mask[inv == g] = True
+        taken += sizes[g]
+    return mask
+
+
+def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_ids=None,
+              seed: int = 0, test_fraction: float = 0.0) -> FoldPlan:
+    """Assign rows to folds (and to the sealed test set).
+
+    Parameters
+    ----------
+    n : int
+        Number of rows.
+    folds : int
+        k for k-fold and grouped folds (ignored with ``fold_ids``).
+    repeats : int
+        Independent re-shuffles of k-fold (or grouped) assignment.
+    groups : array_like of shape (n,), optional
+        Rows sharing a value stay in one fold (and together in or out of the
+        sealed test set).
+    fold_ids : array_like of shape (n,), optional
+        Explicit fold of each row; its distinct values define the folds.
+    seed : int
+    test_fraction : float
+        Share of rows sealed away before folding.
+
+    Raises
+    ------
+    ParameterError
+        Bad k, repeats or fraction, or too few rows/groups for k folds.
+    """
+    seed = _check_int("seed", seed, 0)
+    repeats = _check_int("repeats", repeats, 1, 1000)
+    if groups is not None and fold_ids is not None:
+        raise ParameterError("Parameters 'groups' and 'fold_ids': expected at most one of them, got both.")
+    if groups is not None:
+        groups = np.asarray(groups)
+        if groups.shape != (n,):
+            raise DataError(message("Group column", f"{n} values (one per row)", groups.shape[0]))
+    test_mask = _sealed(n, test_fraction, seed, groups)
+    train = np.flatnonzero(~test_mask)
+    m = train.size
+    labels = np.full((repeats, n), -1, dtype=np.int16)
+
+    if fold_ids is not None:
+        fold_ids = np.asarray(fold_ids)
+        if fold_ids.shape != (n,):
+            raise DataError(message("Fold column", f"{n} values (one per row)", fold_ids.shape[0]))
+        if repeats != 1:
+            raise ParameterError(message("Parameter 'repeats'", "1 with explicit fold ids", repeats))
+        uniq, inv = np.unique(fold_ids[train], return_inverse=True)
+        k = len(uniq)
+        if k < 2:
+            raise DataError(message("Fold column", "at least 2 distinct fold values", k))
+        labels[0, train] = inv
+        return FoldPlan("explicit", k, 1, seed, labels, test_mask, float(test_fraction))
+
+    k = _check_int("folds", folds, 2, 1000)
+    if groups is not None:
+        uniq, inv = np.unique(groups[train], return_inverse=True)
+        if len(uniq) < k:
+            raise DataError(message(
+                "Group column", f"at least {k} distinct groups for {k} folds",
+                f"{len(uniq)} groups", "Use fewer folds or ungrouped folds"))
+        sizes = np.bincount(inv)
+        for r in range(repeats):
+            order = np.random.default_rng([seed, 13, r]).permutation(len(uniq))
+            load = np.zeros(k, dtype=np.int64)
+            fold_of_group = np.empty(len(uniq), dtype=np.int16)
+            for g in order:
+                f = int(np.argmin(load))
+                fold_of_group[g] = f
+                load[f] += sizes[g]
+            labels[r, train] = fold_of_group[inv]
+        return FoldPlan("group", k, repeats, seed, labels, test_mask, float(test_fraction))
+
+    if m < k:
+        raise DataError(message(
+            f"Rows for {k}-fold cross-validation", f"at least {k} rows outside the sealed test set",
+            m, "Use fewer folds or a smaller test fraction"))
+    pos = (np.arange(m) % k).astype(np.int16)
+    for r in range(repeats):
+        perm = np.random.default_rng([seed, 11, r]).permutation(m)
+        labels[r, train[perm]] = pos
+    return FoldPlan("kfold", k, repeats, seed, labels, test_mask, float(test_fraction))

@@ -1,0 +1,175 @@
+"""The engine: one chunked pass that accumulates per-cell sufficient statistics.
+
+For every row i the augmented basis vector is
+``b_i = [P_0(t_i), ..., P_D(t_i), y_i - y0]`` (Legendre values of mapped x,
+then the response shifted by a constant y0). A *cell* is a group of rows, for
+example one fold of one repeat; for each cell the pass adds
+``sum_i w_i b_i b_i'`` into a (D + 2) x (D + 2) matrix, and counts the rows.
+That matrix holds the weight total, the weighted sums, P'WP, P'Wy and y'Wy:
+everything any degree <= D, any lambda and any fold needs.
+
+The pass is chunked (memory O(chunk * D), never O(n * D)) and mergeable:
+statistics from different chunks, files or partitions simply add
+(``Moments.__add__``), which is what a distributed engine runs per partition.
+
+Shifting y by y0 (default: the first chunk's weighted mean) keeps the sums
+small; an intercept absorbs the shift exactly, and ``unshift`` restores the
+raw sums for through-origin models.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .basis import Domain, legendre_columns
+from .errors import ParameterError, message
+
+__all__ = ["Moments", "Accumulator", "accumulate", "unshift", "DEFAULT_CHUNK"]
+
+DEFAULT_CHUNK = 16384
+
+
+@dataclass(frozen=True)
+class Moments:
+    """Per-cell statistics of one pass.
+
+    Attributes
+    ----------
+    domain : Domain
+        The x -> t map used for the basis (fixed for every cell).
+    max_degree : int
+        D, the highest Legendre degree accumulated.
+    y_shift : float
+        y0 subtracted from every response before accumulating.
+    gram : ndarray of shape (n_cells, D + 2, D + 2)
+        ``sum w b b'`` per cell; index D + 1 is the shifted response.
+    counts : ndarray of shape (n_cells,), int64
+        Unweighted row count per cell.
+    """
+
+    domain: Domain
+    max_degree: int
+    y_shift: float
+    gram: np.ndarray = field(repr=False)
+    counts: np.ndarray = field(repr=False)
+
+    @property
+    def n_cells(self) -> int:
+        return int(self.gram.shape[0])
+
+    def __add__(self, other: "Moments") -> "Moments":
+        if (self.domain != other.domain or self.max_degree != other.max_degree
+                or self.y_shift != other.y_shift or self.gram.shape != other.gram.shape):
+            raise ValueError("Moments: expected statistics of the same layout (domain, "
+                             "degree, y shift, cells) to merge, got different ones.")
+        return Moments(self.domain, self.max_degree, self.y_shift,
+                       self.gram + other.gram, self.counts + other.counts)
+
+    def total(self, cells) -> tuple[np.ndarray, int]:
+        """Summed statistics and row count over the given cell indices (adds, never subtracts)."""
+        cells = np.asarray(cells, dtype=np.intp)
+        return self.gram[cells].sum(axis=0), int(self.counts[cells].sum())
+
+    def truncated(self, degree: int) -> np.ndarray:
+        """Index vector selecting P_0..P_degree and y from the augmented matrix."""
+        return np.r_[np.arange(degree + 1), self.max_degree + 1]
+
+
+def unshift(M: np.ndarray, y_shift: float) -> np.ndarray:
+    """Statistics for the raw response from those of the shifted one.
+
+    With y = y0 + y': P'Wy = P'Wy' + y0 P'W1 and y'Wy = y''Wy' + 2 y0 1'Wy' + y0^2 1'W1.
+    Index 0 must be P_0 = 1 and the last index the response.
+    """
+    if y_shift == 0.0:
+        return M
+    M = M.copy()
+    col = M[:, -1] + y_shift * M[:, 0]
+    yy = M[-1, -1] + 2.0 * y_shift * M[0, -1] + y_shift * y_shift * M[0, 0]
+    M[:, -1] = col
+    M[-1, :] = col
+    M[-1, -1] = yy
+    return M
+
+
+class Accumulator:
+    """Streaming accumulation of ``Moments``; feed chunks or whole arrays.
+
+    Parameters
+    ----------
+    domain : Domain
+    max_degree : int
+    n_cells : int
+    y_shift : float, optional
+        Defaults to the weighted mean of the first rows seen.
+    chunk : int
+        Rows per block inside ``update`` (cache-sized).
+    """
+
+    def __init__(self, domain: Domain, max_degree: int, n_cells: int, *,
+                 y_shift: float | None = None, chunk: int = DEFAULT_CHUNK):
+        if not (0 <= max_degree <= 30):
+            raise ParameterError(message("Parameter 'max_degree'", "an integer from 0 to 30", max_degree))
+        self.domain = domain
+        self.max_degree = int(max_degree)
+        self.n_cells = int(n_cells)
+        self.y_shift = y_shift
+        self.chunk = int(chunk)
+        p = self.max_degree + 2
+        self._gram = np.zeros((self.n_cells, p, p))
+        self._counts = np.zeros(self.n_cells, dtype=np.int64)
+        self._buf = np.empty((self.chunk, p), order="F")
+
+    def update(self, x: np.ndarray, y: np.ndarray, weights: np.ndarray | None,
+               labels: np.ndarray) -> None:
+        """Add rows. ``labels`` has shape (L, m): each row is one assignment of
+        the m rows to cells (-1 = skip); a row is added once per assignment."""
+        x = np.asarray(x, dtype=np.float64)
+        y = np.asarray(y, dtype=np.float64)
+        labels = np.atleast_2d(labels)
+        if self.y_shift is None:
+            head = slice(0, min(len(y), self.chunk))
+            yw = y[head] if weights is None else np.average(y[head], weights=weights[head])
+            self.y_shift = float(np.mean(yw)) if len(y) else 0.0
+        for start in range(0, len(x), self.chunk):
+            stop = min(start + self.chunk, len(x))
+            w = None if weights is None else weights[start:stop]
+            self._block(x[start:stop], y[start:stop], w, labels[:, start:stop])
+
+    def _block(self, x, y, w, labels) -> None:
+        m = len(x)
+        D = self.max_degree
+        B = self._buf[:m]
+        legendre_columns(self.domain.map(x), D, out=B[:, : D + 1])
+        np.subtract(y, self.y_shift, out=B[:, D + 1])
+        if w is not None:
+            B *= np.sqrt(w)[:, None]
+        for lab in labels:
+            if self.n_cells == 1 and not (lab < 0).any():
+                self._gram[0] += B.T @ B
+                self._counts[0] += m
+                continue
+            order = np.argsort(lab, kind="stable")
+            cnt = np.bincount(lab + 1, minlength=self.n_cells + 1)
+            Bs = B[order]
+            pos = int(cnt[0])  # skipped rows (-1) sort first
+            for c in np.flatnonzero(cnt[1:]):
+                n_c = int(cnt[c + 1])
+                blk = Bs[pos: pos + n_c]
+                self._gram[c] += blk.T @ blk
+                self._counts[c] += n_c
+                pos += n_c
+
+    def result(self) -> Moments:
+        return Moments(self.domain, self.max_degree, float(self.y_shift or 0.0),
+                       self._gram.copy(), self._counts.copy())
+
+
+def accumulate(x, y, *, labels, n_cells: int, domain: Domain, max_degree: int,
+               weights=None, y_shift: float | None = None, chunk: int = DEFAULT_CHUNK) -> Moments:
+    """One pass over in-memory arrays (see ``Accumulator``)."""
+    acc = Accumulator(domain, max_degree, n_cells, y_shift=y_shift, chunk=chunk)
+    acc.update(x, y, weights, labels)
+    return acc.result()

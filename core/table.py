@@ -1,0 +1,264 @@
+"""Reading a user's table into validated columns; every problem names file, row and column.
+
+Rows are numbered as a spreadsheet shows them: the header is row 1, the
+first data row is row 2.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .errors import DataError, message
+from .validate import MAX_ABS
+
+__all__ = ["Table", "Column", "read_table", "unit_of"]
+
+_UNIT = re.compile(r"^\s*(?P<name>.*?)\s*[\[(](?P<unit>[^\])]+)[\])]\s*$")
+
+
+def unit_of(header: str) -> str | None:
+    """Unit written in a header such as ``load [kN]`` or ``T (degC)``, else None."""
+    m = _UNIT.match(str(header))
+    return m.group("unit").strip() if m else None
+
+
+@dataclass(frozen=True)
+class Column:
+    name: str
+    unit: str | None
+    values: np.ndarray = field(repr=False)
+
+
+@dataclass(frozen=True)
+class Table:
+    """Selected, validated columns of one file, with an audit fingerprint."""
+
+    path: str
+    x: Column
+    y: Column | None
+    weights: np.ndarray | None = field(repr=False)
+    weight_column: str | None
+    groups: np.ndarray | None = field(repr=False)
+    folds: np.ndarray | None = field(repr=False)
+    rows_read: int
+    rows_dropped: list = field(repr=False)
+    file_sha256: str
+    columns_sha256: str
+    notices: tuple = ()
+
+    @property
+    def n(self) -> int:
+        return int(self.x.values.size)
+
+    def fingerprint(self) -> dict:
+        xv = self.x.values
+        return {"file_sha256": self.file_sha256, "columns_sha256": self.columns_sha256,
+                "rows": self.n, "x_min": float(xv.min()), "x_max": float(xv.max())}
+
+
+def _read_frame(path: Path, sheet=None):
+    import pandas as pd
+
+    if not path.exists():
+        raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
+    raw = path.read_bytes()
+    notices = []
+    if not raw.strip():
+        raise DataError(message(f"File '{path.name}'", "a header row and data rows", "an empty file"))
+    suffix = path.suffix.lower()
+    if suffix in (".xlsx", ".xlsm"):
+        try:
+            frame = pd.read_excel(io.BytesIO(raw), sheet_name=sheet or 0, dtype=object)
+        except (ValueError, KeyError, OSError) as exc:
+            raise DataError(message(f"File '{path.name}'", "a readable .xlsx workbook", str(exc).split("\n")[0])) from exc
+        return frame, raw, notices
+    if suffix == ".parquet":
+        try:
+            frame = pd.read_parquet(io.BytesIO(raw))
+        except Exception as exc:  # pyarrow raises many unrelated types for a corrupt file
+            raise DataError(message(f"File '{path.name}'", "a readable Parquet file", type(exc).__name__)) from exc
+        return frame, raw, notices
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        text = raw.decode("latin-1")
+        notices.append(f"File '{path.name}' is not UTF-8; read it as Latin-1.")
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+    sep = max([",", ";", "\t"], key=first.count)
+    if first.count(sep) == 0:
+        sep = ","
+    decimal = "."
+    if sep == ";" and re.search(r"\d,\d", text):
+        decimal = ","
+    try:
+        frame = pd.read_csv(io.StringIO(text), sep=sep, decimal=decimal, dtype=str,
+                            keep_default_na=False, skip_blank_lines=True)
+    except pd.errors.ParserError as exc:
+        raise DataError(message(f"File '{path.name}'", "rows with the same number of fields as the header",
+                                str(exc).strip().split("\n")[-1])) from exc
+    except pd.errors.EmptyDataError as exc:
+        raise DataError(message(f"File '{path.name}'", "a header row and data rows", "no columns")) from exc
+    frame.attrs["decimal"] = decimal
+    return frame, raw, notices
+
+
+def _pick(frame, spec, role: str, fname: str) -> str:
+    cols = [str(c) for c in frame.columns]
+    if spec is None:
+        raise DataError(message(f"Column for {role}", "a column name or 1-based position", "none"))
+    s = str(spec)
+    if s in cols:
+        return s
+    if s.isdigit() and 1 <= int(s) <= len(cols):
+        return cols[int(s) - 1]
+    bare = {re.sub(r"\s*[\[(].*$", "", c).strip(): c for c in cols}
+    if s in bare:
+        return bare[s]
+    raise DataError(message(f"Column '{s}' ({role}) in '{fname}'", "one of " + ", ".join(repr(c) for c in cols),
+                            "no such column", "Pass --" + role + " with a column name or position"))
+
+
+def _numbers(frame, col: str, fname: str, missing: str, decimal: str = "."):
+    import pandas as pd
+
+    raw = frame[col]
+    vals = np.empty(len(raw))
+    miss = np.zeros(len(raw), dtype=bool)
+    for i, v in enumerate(raw.tolist()):
+        if v is None or (isinstance(v, float) and np.isnan(v)) or (isinstance(v, str) and not v.strip()):
+            miss[i] = True
+            vals[i] = np.nan
+            continue
+        if isinstance(v, str):
+            s = v.strip()
+            if decimal == ",":
+                s = s.replace(".", "").replace(",", ".") if s.count(",") == 1 else s
+            try:
+                f = float(s)
+            except ValueError:
+                raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a number", repr(v),
+                                        "Mark missing values as empty cells or pass --missing drop")) from None
+        else:
+            try:
+                f = float(v)
+            except (TypeError, ValueError):
+                raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a number", repr(v))) from None
+        if np.isnan(f):
+            miss[i] = True
+        elif not np.isfinite(f):
+            raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a finite number", repr(v),
+                                    "Replace infinite values or remove the row"))
+        elif abs(f) > MAX_ABS:
+            raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", f"|value| <= {MAX_ABS:g}",
+                                    f"{f:g}", "Rescale the column (change its unit)"))
+        vals[i] = f
+    return vals, miss
+
+
+def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, fold=None,
+               missing: str = "refuse", sheet=None) -> Table:
+    """Read one file and select its columns.
+
+    Parameters
+    ----------
+    path : str or Path
+        CSV/TSV/semicolon text (delimiter and decimal comma detected), .xlsx or .parquet.
+    x, y : str or int
+        Column name (or 1-based position; a bare name also finds ``name [unit]``).
+    weights : str, optional
+        Weight column (positive).
+    uncertainty : str, optional
+        Standard-uncertainty column u; weights become 1 / u^2.
+    group, fold : str, optional
+        Group column (grouped folds) or explicit fold column.
+    missing : {"refuse", "drop"}
+        Refuse rows with empty/NaN cells (listing them) or drop them.
+
+    Raises
+    ------
+    DataError
+        Naming the file, row and column, and the fix.
+    """
+    import pandas as pd
+
+    path = Path(path)
+    if missing not in ("refuse", "drop"):
+        raise DataError(message("Option --missing", "'refuse' or 'drop'", missing))
+    frame, raw, notices = _read_frame(path, sheet)
+    fname = path.name
+    cols = [str(c) for c in frame.columns]
+    # pandas renames a repeated header "a" to "a.1"; report the original name
+    repeated = sorted({re.sub(r"\.\d+$", "", c) for c in cols
+                       if re.search(r"\.\d+$", c) and re.sub(r"\.\d+$", "", c) in cols})
+    if repeated:
+        raise DataError(message(f"File '{fname}' header", "distinct column names",
+                                "repeated " + ", ".join(repr(n) for n in repeated),
+                                "Rename the repeated columns"))
+    if len(frame) == 0:
+        raise DataError(message(f"File '{fname}'", "data rows below the header", "a header only"))
+    frame.columns = cols
+    decimal = frame.attrs.get("decimal", ".")
+    roles = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
+    chosen = {r: _pick(frame, s, r, fname) for r, s in roles.items() if s is not None}
+    numeric = {r: _numbers(frame, c, fname, missing, decimal) for r, c in chosen.items()}
+    any_missing = np.zeros(len(frame), dtype=bool)
+    for r, (v, m) in numeric.items():
+        any_missing |= m
+    extra = {}
+    for role, spec in (("group", group), ("fold", fold)):
+        if spec is not None:
+            c = _pick(frame, spec, role, fname)
+            vals = frame[c].astype(str).str.strip().to_numpy()
+            any_missing |= (vals == "") | (vals == "nan")
+            extra[role] = (c, vals)
+    dropped = (np.flatnonzero(any_missing) + 2).tolist()
+    if dropped and missing == "refuse":
+        shown = ", ".join(map(str, dropped[:12])) + (" ..." if len(dropped) > 12 else "")
+        raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
+                                f"{len(dropped)} row(s) with empty cells",
+                                "Fill them in, or pass --missing drop to leave those rows out"))
+    keep = ~any_missing
+    if keep.sum() == 0:
+        raise DataError(message(f"File '{fname}'", "at least one complete row", "none"))
+    xv = numeric["x"][0][keep]
+    yv = numeric["y"][0][keep] if "y" in numeric else None
+    w = None
+    wname = None
+    if "weights" in numeric:
+        w = numeric["weights"][0][keep]
+        wname = chosen["weights"]
+        bad = np.flatnonzero(w <= 0)
+        if bad.size:
+            row = int(np.flatnonzero(keep)[bad[0]] + 2)
+            raise DataError(message(f"File '{fname}' column '{wname}' row {row}", "a positive weight",
+                                    f"{w[bad[0]]:g}", "Drop the row or give it a positive weight"))
+    if "uncertainty" in numeric:
+        u = numeric["uncertainty"][0][keep]
+        wname = chosen["uncertainty"]
+        bad = np.flatnonzero(u <= 0)
+        if bad.size:
+            row = int(np.flatnonzero(keep)[bad[0]] + 2)
+            raise DataError(message(f"File '{fname}' column '{wname}' row {row}", "a positive uncertainty",
+                                    f"{u[bad[0]]:g}", "Uncertainties must be > 0 (weight = 1/u^2)"))
+        w = 1.0 / u ** 2
+    if np.unique(xv).size < 2:
+        raise DataError(message(f"File '{fname}' column '{chosen['x']}'", "at least two distinct x values",
+                                f"only {xv[0]!r}", "A curve cannot be fitted against a single x value"))
+    h = hashlib.sha256()
+    for r in ("x", "y", "weights", "uncertainty"):
+        if r in numeric:
+            h.update(r.encode())
+            h.update(np.ascontiguousarray(numeric[r][0][keep]).tobytes())
+    return Table(
+        str(path), Column(chosen["x"], unit_of(chosen["x"]), xv),
+        Column(chosen["y"], unit_of(chosen["y"]), yv) if yv is not None else None,
+        w, wname,
+        extra["group"][1][keep] if "group" in extra else None,
+        extra["fold"][1][keep] if "fold" in extra else None,
+        int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h.hexdigest(), tuple(notices))

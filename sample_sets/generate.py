@@ -1,0 +1,67 @@
+"""Make the bundled sample sets. Every set is INVENTED: no real lab, plant or sensor.
+
+Run ``python sample_sets/generate.py`` to rebuild the CSV files byte for byte
+(seeded generator; numbers are printed with fixed precision).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+HERE = Path(__file__).resolve().parent
+
+
+def thermistor(rng) -> str:
+    """Fictional bench calibration of a thermistor probe: R against T, with per-point u."""
+    T = np.repeat(np.linspace(-20.0, 80.0, 26), 2)
+    # a smooth, invented resistance curve (ohm), roughly exponential in 1/T
+    Tk = T + 273.15
+    R = 10000.0 * np.exp(3450.0 * (1.0 / Tk - 1.0 / 298.15))
+    u = 0.002 * R + 2.0                       # standard uncertainty grows with R
+    R_obs = R + u * rng.normal(size=T.size)
+    lines = ["probe_T [degC],resistance [ohm],u_resistance [ohm]"]
+    lines += [f"{t:.2f},{r:.3f},{uu:.3f}" for t, r, uu in zip(T, R_obs, u)]
+    return "\n".join(lines) + "\n"
+
+
+def furnace(rng) -> str:
+    """Fictional pilot-furnace study: yield against temperature setting.
+
+    A clear curved trend with noise and three outliers, so that a stiff curve
+    misses the bend and a flexible one chases the outliers.
+    """
+    n = 60
+    setting = np.sort(rng.uniform(640.0, 900.0, n))
+    s = (setting - 770.0) / 130.0
+    trend = 71.0 + 9.0 * s - 11.0 * s ** 2 + 3.5 * np.sin(2.6 * s)
+    y = trend + rng.normal(scale=1.6, size=n)
+    for i in (9, 31, 52):
+        y[i] += rng.choice([-1, 1]) * rng.uniform(6.0, 9.0)
+    batch = 1 + np.arange(n) // 4
+    lines = ["setting [degC],yield [%],batch"]
+    lines += [f"{a:.1f},{b:.2f},B{c:02d}" for a, b, c in zip(setting, y, batch)]
+    return "\n".join(lines) + "\n"
+
+
+def beam(rng) -> str:
+    """Fictional load test of a small test beam: deflection against load, three
+    replicate runs (zero offset: deflection is 0 at zero load)."""
+    loads = np.linspace(0.5, 12.0, 16)
+    rows = ["load [kN],deflection [mm],run"]
+    for run in (1, 2, 3):
+        d = 0.82 * loads + 0.0065 * loads ** 2 + rng.normal(scale=0.05, size=loads.size)
+        rows += [f"{a:.2f},{b:.4f},{run}" for a, b in zip(loads, d)]
+    return "\n".join(rows) + "\n"
+
+
+def main() -> None:
+    rng = np.random.default_rng(20261202)
+    for name, make in (("thermistor_bench.csv", thermistor), ("furnace_yield.csv", furnace),
+                       ("beam_deflection.csv", beam)):
+        (HERE / name).write_text(make(rng), encoding="utf-8")
+
+
+if __name__ == "__main__":
+    main()
