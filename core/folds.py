@@ -170,8 +170,9 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
         raise DataError(message(
             f"Rows for {k}-fold cross-validation", f"at least {k} rows outside the sealed test set",
             m, "Use fewer folds or a smaller test fraction"))
-    pos = (np.arange(m) % k).astype(np.int16)
+    pos = np.resize(np.arange(k, dtype=np.int16), m)
+    whole = m == n
     for r in range(repeats):
         perm = np.random.default_rng([seed, 11, r]).permutation(m)
-        labels[r, train[perm]] = pos
+        labels[r, perm if whole else train[perm]] = pos
     return FoldPlan("kfold", k, repeats, seed, labels, test_mask, float(test_fraction))

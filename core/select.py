@@ -33,7 +33,8 @@ from .moments import Moments, accumulate
 from .solve import FoldSolver, check_degree, check_lambdas
 from .validate import check_xyw
 
-__all__ = ["Engine", "Surface", "Recommendation", "SealedTest", "sweep", "build_engine"]
+__all__ = ["Engine", "Surface", "Recommendation", "SealedTest", "sweep", "build_engine",
+           "surface_from_engine", "grid_choices"]
 
 
 def _fold_sums(blocks: np.ndarray) -> np.ndarray:
@@ -140,15 +141,20 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
     max_degree = check_degree(max_degree)
     plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
                      seed=seed, test_fraction=test_fraction)
-    if np.unique(x).size < 2:
+    if not x.min() < x.max():
         raise DataError(message("Column x", "at least two distinct values", f"only x = {x[0]!r}",
                                 "A curve cannot be fitted against a single x value"))
     k, R = plan.k, plan.repeats
-    labels = plan.labels.astype(np.int32)
-    for r in range(R):
-        labels[r, labels[r] >= 0] += r * k
-    labels[0, plan.test_mask] = R * k
-    counts = np.array([np.count_nonzero(plan.labels[r] == f) for r in range(R) for f in range(k)])
+    if R == 1:
+        labels = plan.labels.copy()
+    else:
+        labels = plan.labels.astype(np.int32)
+        for r in range(1, R):
+            labels[r, labels[r] >= 0] += r * k
+    if plan.n_test:
+        labels[0, plan.test_mask] = R * k
+    counts = np.concatenate([np.bincount(plan.labels[r][plan.labels[r] >= 0], minlength=k)
+                             for r in range(R)])
     need = max_degree + 1
     train_rows = plan.n - plan.n_test - counts
     if train_rows.min() < need:
@@ -157,8 +163,8 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
             f"Training rows of fold {i % k + 1}" + (f" (repeat {i // k + 1})" if R > 1 else ""),
             f"at least degree + 1 = {need} rows", int(train_rows[i]),
             "Lower the highest degree, use fewer folds or a smaller test fraction"))
-    xt = x[~plan.test_mask]
-    domain = Domain.from_range(xt.min(), xt.max()) if np.unique(xt).size >= 2 else \
+    xt = x[~plan.test_mask] if plan.n_test else x
+    domain = Domain.from_range(xt.min(), xt.max()) if xt.min() < xt.max() else \
         Domain.from_range(x.min(), x.max())
     mom = accumulate(x, y, labels=labels, n_cells=R * k + 1, domain=domain,
                      max_degree=max_degree, weights=None if weights is None else w)
@@ -275,7 +281,7 @@ def _refine_min(engine: Engine, degree: int, lams: np.ndarray, i: int, best: flo
         return float(engine.cv_summary(degree, [math.exp(u)])[0][0])
 
     res = minimize_scalar(obj, bounds=(math.log(lo), math.log(hi)), method="bounded",
-                          options={"xatol": 1e-3})
+                          options={"xatol": 1e-2})
     if res.fun < best:
         return float(math.exp(res.x)), float(res.fun)
     return float(lams[i]), best
@@ -298,25 +304,38 @@ def _refine_1se(engine: Engine, degree: int, lams: np.ndarray, i: int, thr: floa
     return float(math.exp(max(u, a)))
 
 
-def _recommend(engine, degrees, lams, cv, se, tr) -> dict:
+def grid_choices(cv: np.ndarray, se: np.ndarray) -> dict:
+    """Grid indices (degree row, lambda column) chosen by the ``min`` and ``1se`` rules.
+
+    Rows must be in increasing degree and columns in increasing lambda, so
+    "simplest" is the first row with an admissible cell, then its last
+    admissible column (largest lambda). NaN cells are never chosen.
+    """
+    cv = np.asarray(cv, dtype=float)
     if not np.isfinite(cv).any():
         raise DataError("Cross-validation: expected at least one finite score, got none.")
     di, li = np.unravel_index(np.nanargmin(cv), cv.shape)
-    best = float(cv[di, li])
-    out = {}
-    d = int(degrees[di])
-    lam, val = _refine_min(engine, d, lams, li, best)
-    out["min"] = _pick(engine, "min", d, lam, float(lams[li]), degrees, lams, li)
-    thr = best + (float(se[di, li]) if np.isfinite(se[di, li]) else 0.0)
+    s = float(np.asarray(se)[di, li])
+    thr = float(cv[di, li]) + (s if np.isfinite(s) else 0.0)
     ok = np.isfinite(cv) & (cv <= thr)
     d1 = int(np.flatnonzero(ok.any(axis=1))[0])
     l1 = int(np.flatnonzero(ok[d1])[-1])
-    lam1 = _refine_1se(engine, int(degrees[d1]), lams, l1, thr, cv[d1])
-    out["1se"] = _pick(engine, "1se", int(degrees[d1]), lam1, float(lams[l1]), degrees, lams, l1)
+    return {"min": (int(di), int(li)), "1se": (d1, l1), "threshold": thr}
+
+
+def _recommend(engine, degrees, lams, cv, se) -> dict:
+    g = grid_choices(cv, se)
+    di, li = g["min"]
+    d = int(degrees[di])
+    lam, _ = _refine_min(engine, d, lams, li, float(cv[di, li]))
+    out = {"min": _pick(engine, "min", d, lam, float(lams[li]), degrees, lams)}
+    d1, l1 = g["1se"]
+    lam1 = _refine_1se(engine, int(degrees[d1]), lams, l1, g["threshold"], cv[d1])
+    out["1se"] = _pick(engine, "1se", int(degrees[d1]), lam1, float(lams[l1]), degrees, lams)
     return out
 
 
-def _pick(engine, rule, degree, lam, grid_lam, degrees, lams, li) -> Recommendation:
+def _pick(engine, rule, degree, lam, grid_lam, degrees, lams) -> Recommendation:
     m, s, t = engine.cv_summary(degree, [lam])
     edf = float(engine.effective_df(degree, [lam])[0])
     positive = lams[lams > 0]
@@ -341,7 +360,7 @@ def surface_from_engine(engine: Engine, degrees, lambdas) -> Surface:
         se[i] = np.nanstd(c, axis=0, ddof=1) / np.sqrt(F)
         tr[i] = np.nanmean(t, axis=0)
         edf[i] = engine.effective_df(int(d), lams)
-    rec = _recommend(engine, degrees, lams, cv, se, tr)
+    rec = _recommend(engine, degrees, lams, cv, se)
     sealed = SealedTest(engine.plan.test_fraction, engine.n_test)
     return Surface(degrees, lams, cv, se, tr, fold, edf, rec, engine.plan.to_dict(),
                    engine.n_train, engine.intercept, sealed, engine)

@@ -88,6 +88,7 @@ class _Degree:
     Uq: np.ndarray
     q: np.ndarray
     exact0: np.ndarray | None  # lambda = 0 solution in the working coordinates
+    RiU: np.ndarray | None     # R^-1 U: maps filtered components to coefficients
 
 
 class FoldSolver:
@@ -166,13 +167,13 @@ class FoldSolver:
         if self.rank >= n:
             Ld = self.L[:n, :n]
             R = Ld.T
-            q = solve_triangular(Ld, g, lower=True) if n else np.zeros(0)
+            q = solve_triangular(Ld, g, lower=True, check_finite=False) if n else np.zeros(0)
             A = R @ K
             if self.intercept:
-                exact0 = solve_triangular(R, q) if n else np.zeros(0)
+                exact0 = solve_triangular(R, q, check_finite=False) if n else np.zeros(0)
             elif degree:
-                nv = solve_triangular(Ld, self.p0[:n], lower=True)
-                exact0 = solve_triangular(R, q - nv * (nv @ q) / (nv @ nv))
+                nv = solve_triangular(Ld, self.p0[:n], lower=True, check_finite=False)
+                exact0 = solve_triangular(R, q - nv * (nv @ q) / (nv @ nv), check_finite=False)
             else:
                 exact0 = np.zeros(1)
         else:
@@ -187,7 +188,8 @@ class FoldSolver:
             U, s, Vt = np.linalg.svd(A, full_matrices=False)
         else:
             U, s, Vt = np.zeros((A.shape[0], 0)), np.zeros(0), np.zeros((0, 0))
-        got = _Degree(R, K, U, s, Vt, U.T @ q, q, exact0)
+        RiU = solve_triangular(R, U, check_finite=False) if (R is not None and degree) else None
+        got = _Degree(R, K, U, s, Vt, U.T @ q, q, exact0, RiU)
         self._cache[degree] = got
         return got
 
@@ -220,8 +222,7 @@ class FoldSolver:
             with np.errstate(divide="ignore", invalid="ignore"):
                 filt = s2 / (s2 + lams[:, None])
             if f.R is not None:
-                X = (f.U @ (filt * f.Uq).T)                       # (n, nl)
-                theta_w = solve_triangular(f.R, X).T
+                theta_w = (filt * f.Uq) @ f.RiU.T                 # (nl, n)
                 zero = lams == 0
                 if zero.any():
                     theta_w[zero] = f.exact0
@@ -269,11 +270,11 @@ class FoldSolver:
         ``sum w (y - P theta)^2 = v' M v`` with v = [-theta, 1].
         """
         theta = np.atleast_2d(theta)
-        d = theta.shape[1] - 1
-        idx = np.r_[np.arange(d + 1), M.shape[0] - 1]
-        sub = M[np.ix_(idx, idx)]
-        v = np.concatenate([-theta, np.ones((theta.shape[0], 1))], axis=1)
-        return np.maximum(np.einsum("li,ij,lj->l", v, sub, v), 0.0)
+        n = theta.shape[1]
+        G = M[:n, :n]
+        g = M[:n, -1]
+        quad = np.sum((theta @ G) * theta, axis=1)
+        return np.maximum(M[-1, -1] - 2.0 * (theta @ g) + quad, 0.0)
 
 
 @dataclass(frozen=True)
