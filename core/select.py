@@ -30,7 +30,7 @@ from .basis import Domain, legendre_columns, legval
 from .errors import DataError, ParameterError, message
 from .folds import FoldPlan, make_plan
 from .moments import Moments, accumulate
-from .solve import FoldSolver, check_degree, check_lambdas
+from .solve import FoldBatch, FoldSolver, check_degree, check_lambdas
 from .validate import check_xyw
 
 __all__ = ["Engine", "Surface", "Recommendation", "SealedTest", "sweep", "build_engine",
@@ -84,6 +84,15 @@ class Engine:
         self.n_test = int(moments.counts[R * k]) if moments.n_cells > R * k else 0
         self.n_train = int(moments.counts[:k].sum())
         self.fold_counts = moments.counts[: R * k].copy()
+        self._held = np.stack(self.heldout)
+        self._train = np.stack(self.train_stats)
+        self._batches: dict[int, FoldBatch] = {}
+
+    def batch(self, degree: int) -> FoldBatch:
+        b = self._batches.get(degree)
+        if b is None:
+            b = self._batches[degree] = FoldBatch(self.solvers, degree)
+        return b
 
     @property
     def max_degree(self) -> int:
@@ -96,13 +105,11 @@ class Engine:
     def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
         """Held-out and training MSE per fold: two arrays of shape (n_folds, len(lams))."""
         lams = check_lambdas(lams)
-        cv = np.full((self.n_folds, lams.size), np.nan)
-        tr = np.full((self.n_folds, lams.size), np.nan)
-        for i, (sv, H, S) in enumerate(zip(self.solvers, self.heldout, self.train_stats)):
-            theta = sv.coefficients(degree, lams)
-            if H[0, 0] > 0:
-                cv[i] = FoldSolver.sse(H, theta) / H[0, 0]
-            tr[i] = FoldSolver.sse(S, theta) / S[0, 0]
+        theta = self.batch(check_degree(degree, self.max_degree)).coefficients(lams)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            wh = self._held[:, 0, 0][:, None]
+            cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
+            tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None]
         return cv, tr
 
     def cv_summary(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -140,6 +140,11 @@ class FoldSolver:
             self.g = S[:D + 1, D + 1]
             self.p0 = legendre_columns(np.array([domain.map(0.0)]), D)[0]
         self.L, self.rank = _chol_rank(self.G)
+        r = self.rank
+        # Leading blocks of R^-1 and of q = R^-T g are the lower-degree ones: invert once.
+        self.Rinv = solve_triangular(self.L[:r, :r].T, np.eye(r), check_finite=False) if r else np.zeros((0, 0))
+        self.qfull = self.Rinv.T @ self.g[:r]
+        self.nfull = self.Rinv.T @ self.p0[:r] if not intercept else None
         self._cache: dict[int, _Degree] = {}
         self._warned = False
 
@@ -165,17 +170,10 @@ class FoldSolver:
         g = self.g[:n]
         exact0 = None
         if self.rank >= n:
-            Ld = self.L[:n, :n]
-            R = Ld.T
-            q = solve_triangular(Ld, g, lower=True, check_finite=False) if n else np.zeros(0)
+            R = self.L[:n, :n].T
+            q = self.qfull[:n]
             A = R @ K
-            if self.intercept:
-                exact0 = solve_triangular(R, q, check_finite=False) if n else np.zeros(0)
-            elif degree:
-                nv = solve_triangular(Ld, self.p0[:n], lower=True, check_finite=False)
-                exact0 = solve_triangular(R, q - nv * (nv @ q) / (nv @ nv), check_finite=False)
-            else:
-                exact0 = np.zeros(1)
+            exact0 = self._exact0(degree, q)
         else:
             self._warn_rank(degree)
             lam_, Q = np.linalg.eigh(self.G[:n, :n])
@@ -188,10 +186,25 @@ class FoldSolver:
             U, s, Vt = np.linalg.svd(A, full_matrices=False)
         else:
             U, s, Vt = np.zeros((A.shape[0], 0)), np.zeros(0), np.zeros((0, 0))
-        RiU = solve_triangular(R, U, check_finite=False) if (R is not None and degree) else None
+        RiU = self.Rinv[:n, :n] @ U if (R is not None and degree) else None
         got = _Degree(R, K, U, s, Vt, U.T @ q, q, exact0, RiU)
         self._cache[degree] = got
         return got
+
+    def _exact0(self, degree: int, q: np.ndarray) -> np.ndarray:
+        """The lambda = 0 solution: R^-1 q, or its projection for through-origin models."""
+        n = self._dim(degree)
+        Ri = self.Rinv[:n, :n]
+        if self.intercept:
+            return Ri @ q
+        if degree == 0:
+            return np.zeros(1)
+        nv = self.nfull[:n]
+        return Ri @ (q - nv * (nv @ q) / (nv @ nv))
+
+    def _K(self, degree: int) -> np.ndarray:
+        rows = slice(1, degree + 1) if self.intercept else slice(0, degree + 1)
+        return self.T[rows, 1:degree + 1] / self.sigma[:degree]
 
     def _warn_rank(self, degree: int) -> None:
         if not self._warned:
@@ -370,3 +383,78 @@ def gradient_descent(solver: FoldSolver, degree: int, lam: float, *, learning_ra
                f"{gap:.3g} above the closed-form minimum {closed:.6g}.")
     return GradientDescentResult(b0 + solver.offset, b, theta, costs, float(closed), diverged,
                                  float(learning_rate), float(max_rate), msg)
+
+
+class FoldBatch:
+    """The same degree solved for many folds at once (stacked arrays, no Python loop per fold).
+
+    Folds on the rank-deficient path are solved one by one and filled in.
+    """
+
+    def __init__(self, solvers: list[FoldSolver], degree: int):
+        self.solvers = solvers
+        self.degree = degree = check_degree(degree, solvers[0].D)
+        self.intercept = solvers[0].intercept
+        self.n = n = solvers[0]._dim(degree)
+        self.slow = [i for i, sv in enumerate(solvers) if sv.rank < n]
+        for i in self.slow:
+            solvers[i]._prepare(degree)      # warns once, caches the fallback
+        if n and degree:
+            # rank-deficient folds borrow a sound fold's shapes here and are overwritten later
+            donor = next((sv for sv in solvers if sv.rank >= n), None)
+            fast = [sv if sv.rank >= n else donor for sv in solvers]
+            if donor is None:                    # every fold is rank deficient
+                self.RiU = self.Uq = self.s2 = self.exact0 = None
+                self.slow = list(range(len(solvers)))
+            else:
+                if any(np.any(sv.sigma[:degree] <= 0) for sv in fast):
+                    raise ParameterError(message("x in the training rows", "at least two distinct values", "one"))
+                R = np.stack([sv.L[:n, :n].T for sv in fast])
+                Ri = np.stack([sv.Rinv[:n, :n] for sv in fast])
+                K = np.stack([sv._K(degree) for sv in fast])
+                q = np.stack([sv.qfull[:n] for sv in fast])
+                U, sv_, _ = np.linalg.svd(np.matmul(R, K), full_matrices=False)
+                self.RiU = np.matmul(Ri, U)
+                self.Uq = np.matmul(np.swapaxes(U, 1, 2), q[:, :, None])[..., 0]
+                self.s2 = sv_ ** 2
+                self.exact0 = np.stack([sv._exact0(degree, qq) for sv, qq in zip(fast, q)])
+        self.mean = np.stack([sv.mean[1:degree + 1] for sv in solvers])
+        self.ycw = np.array([sv._ycw for sv in solvers])
+
+    def coefficients(self, lams: np.ndarray) -> np.ndarray:
+        """Legendre coefficients in working coordinates, shape (folds, len(lams), degree + 1)."""
+        lams = check_lambdas(lams)
+        F, d = len(self.solvers), self.degree
+        out = np.zeros((F, lams.size, d + 1))
+        if d == 0 or self.n == 0:
+            if self.intercept:
+                out[:, :, 0] = self.ycw[:, None]
+            return out
+        if self.RiU is None:
+            for i in range(F):
+                out[i] = self.solvers[i].coefficients(d, lams)
+            return out
+        with np.errstate(divide="ignore", invalid="ignore"):
+            filt = self.s2[:, None, :] / (self.s2[:, None, :] + lams[None, :, None])
+        theta_w = np.matmul(filt * self.Uq[:, None, :], np.swapaxes(self.RiU, 1, 2))
+        zero = lams == 0
+        if zero.any():
+            theta_w[:, zero, :] = self.exact0[:, None, :]
+        if self.intercept:
+            out[:, :, 1:] = theta_w
+            out[:, :, 0] = self.ycw[:, None] - np.matmul(theta_w, self.mean[:, :, None])[..., 0]
+        else:
+            out[:] = theta_w
+        for i in self.slow:
+            out[i] = self.solvers[i].coefficients(d, lams)
+        return out
+
+    @staticmethod
+    def sse(M: np.ndarray, theta: np.ndarray) -> np.ndarray:
+        """Weighted SSE per fold and lambda: M (folds, p, p) working stats, theta (folds, nl, n)."""
+        n = theta.shape[2]
+        G = M[:, :n, :n]
+        g = M[:, :n, -1]
+        quad = np.sum(np.matmul(theta, G) * theta, axis=2)
+        lin = np.sum(theta * g[:, None, :], axis=2)
+        return np.maximum(M[:, -1, -1][:, None] - 2.0 * lin + quad, 0.0)

@@ -1,0 +1,276 @@
+"""The workbench state: one param.Parameterized object that drives every view.
+
+Inputs are parameters (degree, lambda, training fraction, folds, seed, sealed
+fraction); outputs are plain dicts of numbers recomputed in one place
+(``_refresh``) from core's cached statistics. Imports param and core only, so
+tests drive it without a browser.
+"""
+
+from __future__ import annotations
+
+import math
+import tempfile
+import warnings
+from pathlib import Path
+
+import numpy as np
+import param
+
+import core
+from core.basis import legval
+from core.choice import build_choice
+from core.errors import CurvewrightError, NumericalWarning
+from core.table import read_table
+
+LOG_LAMBDA_OFF = -9.0         # slider position meaning lambda = 0 exactly
+LAMBDA_GRID = np.logspace(-8, 6, 29)
+SEARCH_DEGREES = range(0, 16)
+MAX_SHOWN = 4000              # rows drawn in scatter plots (statistics use all rows)
+
+
+def lam_of(log_lam: float) -> float:
+    return 0.0 if log_lam <= LOG_LAMBDA_OFF else 10.0 ** log_lam
+
+
+class Workbench(param.Parameterized):
+    """State of one page session."""
+
+    degree = param.Integer(3, bounds=(0, 30), doc="polynomial degree")
+    log_lambda = param.Number(-3.0, bounds=(LOG_LAMBDA_OFF, 6.0), step=0.1,
+                              doc="log10 of lambda; the left end means lambda = 0")
+    train_fraction = param.Number(1.0, bounds=(0.1, 1.0), step=0.05,
+                                  doc="share of the training rows used for the fit")
+    folds = param.Integer(10, bounds=(2, 20))
+    seed = param.Integer(0, bounds=(0, 10**6))
+    test_fraction = param.Number(0.2, bounds=(0.0, 0.5), step=0.05)
+    x_column = param.String("")
+    y_column = param.String("")
+    weight_column = param.String("")
+    status = param.String("")
+    busy = param.Boolean(False)
+    version = param.Integer(0, doc="bumped after every recompute; views watch it")
+    data_version = param.Integer(0, doc="bumped when data or folds change")
+
+    def __init__(self, path=None, **params):
+        super().__init__(**params)
+        self.table = None
+        self.columns: list[str] = []
+        self.engine = None
+        self.surface = None
+        self.learning = None
+        self.out: dict = {}
+        self._file_bytes = None
+        self._file_name = None
+        if path is not None:
+            self.load_path(path)
+
+    # ---- data -----------------------------------------------------------------
+    def load_path(self, path, name=None) -> bool:
+        """Load a file; on failure keep the previous data and report in ``status``."""
+        import pandas as pd  # noqa: F401  (reader dependency)
+        try:
+            frame_cols = self._columns_of(path)
+            x = self.x_column if self.x_column in frame_cols else frame_cols[0]
+            y = self.y_column if self.y_column in frame_cols and self.y_column != x else \
+                next(c for c in frame_cols if c != x)
+            table = read_table(path, x=x, y=y, weights=self.weight_column or None, missing="drop")
+        except CurvewrightError as exc:
+            self.status = f"Could not load {name or Path(path).name}: {exc}"
+            return False
+        except StopIteration:
+            self.status = f"Could not load {name or Path(path).name}: expected at least two columns."
+            return False
+        self.columns = frame_cols
+        self._source_path = str(path)
+        self._display_name = name or Path(path).name
+        self._set_table(table)
+        return True
+
+    def load_bytes(self, data: bytes, filename: str) -> bool:
+        suffix = Path(filename).suffix or ".csv"
+        with tempfile.NamedTemporaryFile(suffix=suffix, delete=False) as fh:
+            fh.write(data)
+            tmp = fh.name
+        ok = self.load_path(tmp, name=filename)
+        return ok
+
+    def _columns_of(self, path) -> list[str]:
+        from core.table import _read_frame
+        frame, _, _ = _read_frame(Path(path))
+        return [str(c) for c in frame.columns]
+
+    def select_columns(self, x: str, y: str, weights: str = "") -> bool:
+        try:
+            table = read_table(self._source_path, x=x, y=y, weights=weights or None, missing="drop")
+        except CurvewrightError as exc:
+            self.status = f"Could not use those columns: {exc}"
+            return False
+        self._set_table(table)
+        return True
+
+    def _set_table(self, table) -> None:
+        self.table = table
+        with param.parameterized.batch_call_watchers(self):
+            self.x_column, self.y_column = table.x.name, table.y.name
+            self.weight_column = table.weight_column or ""
+        dropped = len(table.rows_dropped)
+        self.status = (f"Loaded {self._display_name}: {table.n} rows"
+                       + (f", {dropped} dropped for missing values" if dropped else "") + ".")
+        self.rebuild()
+
+    # ---- statistics ----------------------------------------------------------
+    @param.depends("folds", "seed", "test_fraction", "train_fraction", watch=True)
+    def rebuild(self) -> None:
+        """New statistics (data, folds, seed, sealed or training fraction changed)."""
+        if self.table is None:
+            return
+        t = self.table
+        self.busy = True
+        try:
+            x, y, w = t.x.values, t.y.values, t.weights
+            keep = np.ones(x.size, dtype=bool)
+            if self.train_fraction < 1.0:
+                u = np.random.default_rng([self.seed, 23]).random(x.size)
+                keep = u < self.train_fraction
+            self._keep = keep
+            max_deg = 30
+            plan_n = int(keep.sum())
+            folds = min(self.folds, max(2, plan_n // 2))
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always", NumericalWarning)
+                engine = None
+                for D in (max_deg, 20, 15, 10, 5, 2, 1):
+                    try:
+                        engine = core.build_engine(x[keep], y[keep], max_degree=D, folds=folds, seed=self.seed,
+                                                   weights=None if w is None else w[keep],
+                                                   test_fraction=self.test_fraction)
+                        break
+                    except core.DataError as exc:
+                        last = exc
+                if engine is None:
+                    raise last
+                self.engine = engine
+                self.surface = core.surface_from_engine(engine, [d for d in SEARCH_DEGREES if d <= engine.max_degree],
+                                                        np.concatenate([[0.0], LAMBDA_GRID]))
+            self.param.degree.bounds = (0, engine.max_degree)
+            if self.degree > engine.max_degree:
+                self.degree = engine.max_degree
+            self.revealed = None
+            xs = x[keep]
+            self._x, self._y = xs, y[keep]
+            self._test = engine.plan.test_mask
+            rng = np.random.default_rng(0)
+            idx = np.arange(xs.size)
+            self._shown = np.sort(rng.choice(idx, MAX_SHOWN, replace=False)) if xs.size > MAX_SHOWN else idx
+            lo, hi = float(xs.min()), float(xs.max())
+            pad = 0.05 * (hi - lo)
+            self._grid = np.linspace(lo - pad, hi + pad, 400)
+            self.learning = None
+            self.data_version += 1
+            if caught:
+                self.status = str(caught[0].message)
+        except CurvewrightError as exc:
+            self.status = f"Could not compute: {exc}"
+        finally:
+            self.busy = False
+        self._refresh()
+
+    # ---- live outputs -----------------------------------------------------------
+    @property
+    def lam(self) -> float:
+        return lam_of(self.log_lambda)
+
+    @param.depends("degree", "log_lambda", watch=True)
+    def _refresh(self) -> None:
+        """Everything that one slider change needs, from cached statistics."""
+        e = self.engine
+        if e is None:
+            return
+        d, lam = min(self.degree, e.max_degree), self.lam
+        theta = e.curve(d, lam)
+        t_grid = e.domain.map(self._grid)
+        shown = self._shown
+        xs, ys, test = self._x[shown], self._y[shown], self._test[shown]
+        fitted = legval(e.domain.map(xs), theta)
+        resid = ys - fitted
+        train_mse = float(e.train_mse_all(d, [lam])[0])
+        dfe = float(e.effective_df(d, [lam])[0])
+        sd = math.sqrt(train_mse * e.n_train / max(e.n_train - dfe, 1.0))
+        cv, se, tr = e.cv_summary(d, [lam])
+        band = [legval(t_grid, sv.coefficients(d, [lam])[0] + np.r_[sv.offset, np.zeros(d)])
+                for sv in e.solvers[: e.plan.k]]
+        by_degree = [e.cv_summary(k, [lam]) for k in range(0, e.max_degree + 1)]
+        lam_axis = LAMBDA_GRID
+        by_lam = e.cv_summary(d, lam_axis)
+        self.out = {
+            "degree": d, "lam": lam, "theta": theta,
+            "grid": self._grid, "curve": legval(t_grid, theta), "band": band,
+            "x": xs, "y": ys, "test": test, "fitted": fitted, "resid": resid,
+            "resid_sd": sd, "train_rmse": math.sqrt(train_mse), "effective_df": dfe,
+            "cv_mse": float(cv[0]), "cv_mse_se": float(se[0]), "cv_train_mse": float(tr[0]),
+            "by_degree": {"degree": np.arange(e.max_degree + 1),
+                          "cv": np.array([b[0][0] for b in by_degree]),
+                          "se": np.array([b[1][0] for b in by_degree]),
+                          "train": np.array([b[2][0] for b in by_degree])},
+            "by_lambda": {"lam": lam_axis, "cv": by_lam[0], "se": by_lam[1], "train": by_lam[2]},
+        }
+        self.version += 1
+
+    # ---- actions -----------------------------------------------------------------
+    def recommend(self, rule: str) -> None:
+        rec = self.surface.recommended[rule]
+        with param.parameterized.batch_call_watchers(self):
+            self.degree = rec.degree
+            self.log_lambda = LOG_LAMBDA_OFF if rec.lam == 0 else max(LOG_LAMBDA_OFF + 0.01, math.log10(rec.lam))
+        self.status = (f"Jumped to the {rule} recommendation: degree {rec.degree}, "
+                       f"lambda {rec.lam:.3g}.")
+        self._refresh()
+
+    def compute_learning_curve(self) -> None:
+        e = self.engine
+        if e is None:
+            return
+        self.busy = True
+        try:
+            w = None if self.table.weights is None else self.table.weights[self._keep]
+            self.learning = core.learning_curve(self._x, self._y, min(self.degree, e.max_degree), self.lam,
+                                                folds=e.plan.k, repeats=2, seed=self.seed, weights=w,
+                                                test_fraction=self.test_fraction)
+        except CurvewrightError as exc:
+            self.status = f"Learning curve: {exc}"
+        finally:
+            self.busy = False
+        self.version += 1
+
+    def reveal_test(self) -> float | None:
+        """Score the sealed test set for the current setting (recorded in the export)."""
+        if self.engine is None or self.engine.n_test == 0:
+            self.status = "No sealed test set: raise the sealed-test fraction first."
+            return None
+        mse = self.surface.reveal_test(min(self.degree, self.engine.max_degree), self.lam)
+        self.status = (f"Sealed test revealed: RMSE {math.sqrt(mse):.6g} on {self.engine.n_test} rows "
+                       "(recorded in the export).")
+        self.version += 1
+        return mse
+
+    def choice(self, notes: str = ""):
+        """The choice document for the current setting (same format as the command line)."""
+        e, t = self.engine, self.table
+        d, lam = min(self.degree, e.max_degree), self.lam
+        keep = self._keep.copy()
+        train_rows = np.flatnonzero(keep)[~e.plan.test_mask]
+        w = None if t.weights is None else t.weights[train_rows]
+        fit = core.fit(t.x.values[train_rows], t.y.values[train_rows], d, lam, weights=w)
+        rec = {k: v.to_dict() for k, v in self.surface.recommended.items()}
+        rule = "manual"
+        for k, v in self.surface.recommended.items():
+            if v.degree == d and math.isclose(v.lam, lam, rel_tol=1e-6, abs_tol=0 if lam else 1e-300):
+                rule = k
+        info = {**self.surface.folds, "recommendation": rec, "sealed_test": self.surface.sealed.to_dict()}
+        data = {"file": self._display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
+                "rows_used": int(train_rows.size), "rows_dropped": list(map(int, t.rows_dropped)),
+                "x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit,
+                "x_range": [float(fit.x_range[0]), float(fit.x_range[1])]}
+        cv = {"cv_mse": self.out["cv_mse"], "cv_mse_se": self.out["cv_mse_se"], "train_mse": fit.train_mse}
+        return build_choice(fit=fit, surface_info=info, rule=rule, cv=cv, data=data, notes=notes,
+                            weights_column=t.weight_column, version=core.__version__)
