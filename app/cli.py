@@ -113,7 +113,19 @@ def build_parser() -> argparse.ArgumentParser:
     lc.add_argument("--seed", type=int, default=0)
     lc.add_argument("--json")
     lc.add_argument("--force", action="store_true")
+    o = sub.add_parser("open", help="start the workbench page on 127.0.0.1 and open it in the browser")
+    o.add_argument("data", nargs="?", help="data file (default: a bundled invented sample set)")
+    o.add_argument("--port", type=int, default=5006)
+    o.add_argument("--address", default="127.0.0.1", help="interface to listen on (default 127.0.0.1)")
+    o.add_argument("--no-browser", action="store_true", help="do not open a browser window")
     return p
+
+
+def cmd_open(args, out):
+    from .serve import serve
+    print(f"curvewright: serving on http://{args.address}:{args.port}/ (Ctrl-C to stop)", file=out)
+    serve(args.data, port=args.port, show=not args.no_browser, address=args.address)
+    return 0
 
 
 def _read(args, extra=None):
@@ -204,7 +216,7 @@ def cmd_learn(args, out):
     return 0
 
 
-COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn}
+COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn, "open": cmd_open}
 
 
 def main(argv=None, out=None) -> int:

@@ -158,6 +158,7 @@ class Workbench(param.Parameterized):
             self.revealed = None
             xs = x[keep]
             self._x, self._y = xs, y[keep]
+            self._x_aside, self._y_aside = x[~keep], y[~keep]
             self._test = engine.plan.test_mask
             rng = np.random.default_rng(0)
             idx = np.arange(xs.size)
@@ -205,7 +206,7 @@ class Workbench(param.Parameterized):
         self.out = {
             "degree": d, "lam": lam, "theta": theta,
             "grid": self._grid, "curve": legval(t_grid, theta), "band": band,
-            "x": xs, "y": ys, "test": test, "fitted": fitted, "resid": resid,
+            "x": xs, "y": ys, "test": test, "aside_x": self._x_aside, "aside_y": self._y_aside, "fitted": fitted, "resid": resid,
             "resid_sd": sd, "train_rmse": math.sqrt(train_mse), "effective_df": dfe,
             "cv_mse": float(cv[0]), "cv_mse_se": float(se[0]), "cv_train_mse": float(tr[0]),
             "by_degree": {"degree": np.arange(e.max_degree + 1),

@@ -1,0 +1,29 @@
+"""Build the page and serve it on 127.0.0.1 (thin: every session gets its own state)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import panel as pn
+
+from .state import Workbench
+from .views import Workspace
+
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_sets" / "furnace_yield.csv"
+
+
+def build_page(path=None):
+    """A fresh state and page for one browser session."""
+    state = Workbench(path or SAMPLE)
+    return Workspace(state).panel()
+
+
+def serve(path=None, *, port: int = 5006, show: bool = True, address: str = "127.0.0.1",
+          threaded: bool = False):
+    """Start the Panel server; returns the server object (``.stop()`` ends it)."""
+    if path is not None and not Path(path).is_file():
+        from core.errors import DataError, message
+        raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
+    pn.extension(notifications=False)
+    return pn.serve({"/": lambda: build_page(path)}, port=port, address=address, show=show,
+                    title="curvewright", threaded=threaded, websocket_origin="*")

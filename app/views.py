@@ -1,0 +1,280 @@
+"""Views of the workbench state. Each holds the state and only derives from it."""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import panel as pn
+import param
+
+from core.errors import CurvewrightError
+from core.files import write_atomic
+
+from . import plots
+from .state import LOG_LAMBDA_OFF, Workbench
+
+CAUTION = ("**Caution.** A fitted curve can feed safety-relevant decisions (instrument calibration, "
+           "structural loads, dosing). This workbench supports engineering judgement; it does not replace it. "
+           "Local codes, standards and licensed professional practice govern any such use.")
+
+HELP = """
+**Bias and variance.** A stiff curve (low degree, large lambda) cannot follow the trend: its
+errors are systematic (*bias*). A very flexible curve follows the noise of this particular sample:
+refit on other rows it would look different (*variance*). Both predict new measurements badly.
+
+**Lambda** adds a price for large coefficients on the standardized powers of x. Raising it
+pulls the curve towards a smoother, flatter shape and lowers its effective degrees of freedom;
+lambda = 0 is ordinary least squares. The grey lines on the curve plot are refits on each
+fold's training rows: when they fan out, variance is high.
+
+**Cross-validation** splits the rows into k folds, fits on k-1 of them and scores the one left
+out, k times. The CV error estimates how well the curve predicts rows it has not seen; the
+training error always looks better.
+
+**The two suggestions.** *Lowest CV error* takes the best score on the grid. *Simplest within
+one standard error* takes the lowest degree, then the largest lambda, whose CV error is within
+one standard error of that best score: a curve that is statistically as good and less likely to
+chase noise (a published rule of thumb, Breiman et al. 1984).
+
+**The sealed test set** is put aside before any cross-validation. Look at it once, after
+choosing: if you keep tuning after seeing it, it stops being an honest check. The export records
+whether and when it was revealed.
+"""
+
+
+def _fmt(v, digits=5):
+    if v is None or not np.isfinite(v):
+        return "–"
+    return f"{v:.{digits}g}"
+
+
+class Workspace(param.Parameterized):
+    """One page: the state plus every widget and figure, created once."""
+
+    def __init__(self, state: Workbench, **params):
+        super().__init__(**params)
+        self.state = s = state
+        xl = s.table.x.name if s.table else "x"
+        yl = s.table.y.name if s.table else "y"
+        self.fit_fig, self.fit_src = plots.make_fit_figure(xl, yl)
+        (self.rx, self.ry, self.rh), self.res_src, self.res_lines = plots.make_residual_figures(xl, yl)
+        (self.fd, self.fl, self.fh), self.cx_src, _ = plots.make_complexity_figures()
+        self.lc_fig, self.lc_src = plots.make_learning_figure()
+        self.status = pn.pane.Alert("", alert_type="light", sizing_mode="stretch_width", name="status")
+        self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
+        self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
+        self._build_widgets()
+        s.param.watch(self._on_version, "version")
+        s.param.watch(self._on_status, "status")
+        s.param.watch(self._on_data, "data_version")
+        self._on_data()
+        self._on_version()
+        self._on_status()
+
+    # ---- widgets ------------------------------------------------------------------
+    def _build_widgets(self):
+        s = self.state
+        self.degree = pn.widgets.IntSlider.from_param(s.param.degree, name="Degree", sizing_mode="stretch_width")
+        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, name="log10 lambda (left end: 0)",
+                                                     sizing_mode="stretch_width")
+        self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, name="Training fraction",
+                                                      sizing_mode="stretch_width")
+        self.folds = pn.widgets.IntInput.from_param(s.param.folds, name="Folds (k)", width=90)
+        self.seed = pn.widgets.IntInput.from_param(s.param.seed, name="Seed", width=90)
+        self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, name="Sealed-test fraction",
+                                                      sizing_mode="stretch_width")
+        for w in (self.degree, self.lam):
+            w.param.update(throttled=False) if "throttled" in w.param else None
+        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", name="Data file",
+                                           sizing_mode="stretch_width")
+        self.upload.param.watch(self._on_upload, "value")
+        cols = s.columns or [""]
+        self.xcol = pn.widgets.Select(name="x column", options=cols, value=s.x_column or cols[0], width=150)
+        self.ycol = pn.widgets.Select(name="y column", options=cols, value=s.y_column or cols[-1], width=150)
+        self.wcol = pn.widgets.Select(name="weights (optional)", options=[""] + cols, value=s.weight_column, width=150)
+        self.apply_cols = pn.widgets.Button(name="Use these columns", button_type="default")
+        self.apply_cols.on_click(lambda e: self._safe(lambda: s.select_columns(self.xcol.value, self.ycol.value,
+                                                                                  self.wcol.value)))
+        self.rec_min = pn.widgets.Button(name="Suggest: lowest CV error", button_type="primary")
+        self.rec_1se = pn.widgets.Button(name="Suggest: simplest within 1 SE", button_type="primary")
+        self.rec_min.on_click(lambda e: self._safe(lambda: s.recommend("min")))
+        self.rec_1se.on_click(lambda e: self._safe(lambda: s.recommend("1se")))
+        self.lc_button = pn.widgets.Button(name="Learning curve", button_type="default")
+        self.lc_button.on_click(lambda e: self._safe(s.compute_learning_curve))
+        self.reveal = pn.widgets.Button(name="Reveal sealed test…", button_type="warning")
+        self.confirm = pn.widgets.Checkbox(name="I have made my choice; reveal and record it", visible=False)
+        self.confirm_btn = pn.widgets.Button(name="Confirm reveal", button_type="danger", visible=False)
+        self.reveal.on_click(self._ask_reveal)
+        self.confirm_btn.on_click(self._do_reveal)
+        self.notes = pn.widgets.TextAreaInput(name="Notes for the export", height=70, sizing_mode="stretch_width")
+        self.download = pn.widgets.FileDownload(callback=self._export, filename="curve_choice.json",
+                                                label="Export choice (JSON)", button_type="success",
+                                                sizing_mode="stretch_width")
+        self.save_beside = pn.widgets.Button(name="Save next to the data file", button_type="default")
+        self.save_beside.on_click(self._save_beside)
+        self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
+        s.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
+
+    def _safe(self, fn):
+        try:
+            fn()
+        except CurvewrightError as exc:
+            self.state.status = str(exc)
+
+    # ---- events -------------------------------------------------------------------
+    def _on_upload(self, event):
+        if not event.new:
+            return
+        self.state.load_bytes(event.new, self.upload.filename or "upload.csv")
+        cols = self.state.columns or [""]
+        self.xcol.options, self.ycol.options, self.wcol.options = cols, cols, [""] + cols
+        self.xcol.value, self.ycol.value = self.state.x_column, self.state.y_column
+
+    def _ask_reveal(self, _):
+        self.confirm.visible = True
+        self.confirm_btn.visible = True
+
+    def _do_reveal(self, _):
+        if not self.confirm.value:
+            self.state.status = "Tick the confirmation box to reveal the sealed test."
+            return
+        self.state.reveal_test()
+        self.confirm.visible = self.confirm_btn.visible = False
+        self.confirm.value = False
+
+    def _export(self):
+        try:
+            text = self.state.choice(self.notes.value or "").to_json()
+        except CurvewrightError as exc:
+            self.state.status = f"Export failed: {exc}"
+            return io.StringIO(json.dumps({"error": str(exc)}))
+        self.state.status = "Choice exported (downloaded as curve_choice.json)."
+        return io.StringIO(text)
+
+    def _save_beside(self, _):
+        s = self.state
+        src = getattr(s, "_source_path", None)
+        if not src or s._display_name != Path(src).name:
+            s.status = "Only a file opened from disk can be saved beside; use Export for uploads."
+            return
+        target = Path(src).with_name(Path(src).stem + "_choice.json")
+        try:
+            s.choice(self.notes.value or "").save(target)
+            s.status = f"Saved {target.name} next to the data file."
+        except CurvewrightError as exc:
+            s.status = f"Not saved: {exc}"
+
+    def _on_status(self, *_):
+        text = self.state.status
+        self.status.object = text
+        self.status.alert_type = "danger" if text.startswith(("Could not", "Export failed", "Not saved")) else "light"
+
+    def _on_data(self, *_):
+        s = self.state
+        if s.surface is not None:
+            self.cx_src["heat"].data = plots.heat_columns(s.surface)
+            recs = s.surface.recommended.values()
+            self.cx_src["heat_rec"].data = {"x": [math.log10(r.lam) if r.lam > 0 else math.log10(s.surface.lambdas[1])
+                                                  for r in recs], "y": [r.degree for r in recs],
+                                            "rule": [r.rule for r in recs]}
+        if s.table is not None:
+            self.fit_fig.xaxis.axis_label = self.rx.xaxis.axis_label = s.table.x.name
+            self.fit_fig.yaxis.axis_label = s.table.y.name
+        self.lc_src.data = plots.learning_columns(None)
+        self.lc_text.object = "Press *Learning curve* to compute it for the current setting."
+
+    def _on_version(self, *_):
+        s = self.state
+        out = s.out
+        if not out:
+            return
+        test_shown = s.surface is not None and s.surface.test_revealed
+        keep = ~out["test"]
+        self.fit_src["points"].data = {"x": out["x"][keep], "y": out["y"][keep]}
+        self.fit_src["sealed"].data = ({"x": out["x"][~keep], "y": out["y"][~keep]} if test_shown
+                                       else {"x": [], "y": []})
+        self.fit_src["aside"].data = {"x": out["aside_x"][:4000], "y": out["aside_y"][:4000]}
+        self.fit_src["curve"].data = {"x": out["grid"], "y": out["curve"]}
+        self.fit_src["band"].data = plots.band_columns(out)
+        res, hist, sd = plots.residual_columns(out)
+        self.res_src["res"].data = res
+        self.res_src["hist"].data = hist
+        for up, dn in self.res_lines.values():
+            up.location, dn.location = 2 * sd, -2 * sd
+        deg, lam = plots.complexity_columns(out)
+        self.cx_src["deg"].data = deg
+        self.cx_src["lam"].data = lam
+        self.cx_src["deg_now"].data = {"x": [out["degree"]], "y": [out["cv_mse"]]}
+        lam_x = out["lam"] if out["lam"] > 0 else 10 ** LOG_LAMBDA_OFF
+        self.cx_src["lam_now"].data = {"x": [lam_x], "y": [out["cv_mse"]]}
+        recs = list(s.surface.recommended.values())
+        self.cx_src["deg_rec"].data = {"x": [r.degree for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)],
+                                       "y": [r.cv_mse for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)],
+                                       "rule": [r.rule for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)]}
+        here = [r for r in recs if r.degree == out["degree"]]
+        self.cx_src["lam_rec"].data = {"x": [max(r.lam, 10 ** LOG_LAMBDA_OFF) for r in here],
+                                       "y": [r.cv_mse for r in here], "rule": [r.rule for r in here]}
+        if s.learning is not None:
+            self.lc_src.data = plots.learning_columns(s.learning)
+            self.lc_text.object = (f"**Reading (guidance, not certainty):** "
+                                   f"{__import__('core').describe_learning_curve(s.learning)}  \n"
+                                   f"Computed for degree {s.learning.degree}, lambda {_fmt(s.learning.lam, 3)}.")
+        self.numbers.object = self._numbers_md(out)
+
+    def _numbers_md(self, out) -> str:
+        s = self.state
+        e = s.engine
+        cv_rmse = math.sqrt(out["cv_mse"])
+        se_rmse = out["cv_mse_se"] / (2 * cv_rmse) if cv_rmse > 0 else float("nan")
+        lines = [f"### Degree {out['degree']}, lambda {_fmt(out['lam'], 4)}", "",
+                 f"CV RMSE **{_fmt(cv_rmse)}** ± {_fmt(se_rmse, 2)} · training RMSE {_fmt(out['train_rmse'])} · "
+                 f"effective df {_fmt(out['effective_df'], 4)} · rows: {e.n_train} for CV, {e.n_test} sealed", ""]
+        sealed = s.surface.sealed
+        if sealed.revealed:
+            lines.append(f"Sealed test RMSE **{_fmt(math.sqrt(sealed.mse))}** (revealed {sealed.revealed_at} "
+                         f"for degree {sealed.degree}, lambda {_fmt(sealed.lam, 3)})")
+        else:
+            lines.append("Sealed test: not revealed.")
+        lines.append("")
+        lines.append("| term | coefficient (raw x) |")
+        lines.append("|---|---|")
+        from core.basis import legendre_to_power
+        power = legendre_to_power(e.domain, out["theta"])
+        for k, a in enumerate(power):
+            lines.append(f"| {'1' if k == 0 else ('x' if k == 1 else f'x^{k}')} | {a:.10g} |")
+        lines.append("")
+        lines.append("Standard errors and the exact least-squares numbers are in the export and `curvewright fit`.")
+        return "\n".join(lines)
+
+    # ---- layout ---------------------------------------------------------------------
+    def panel(self):
+        s = self.state
+        controls = pn.Column(
+            pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), self.wcol, self.apply_cols,
+            pn.pane.Markdown("#### Flexibility"), self.degree, self.lam,
+            pn.pane.Markdown("#### Validation"), self.frac, pn.Row(self.folds, self.seed), self.test,
+            pn.Row(self.rec_min), pn.Row(self.rec_1se), self.lc_button,
+            pn.pane.Markdown("#### Sealed test and export"), self.reveal, self.confirm, self.confirm_btn,
+            self.notes, self.download, self.save_beside,
+            width=330, sizing_mode="fixed", styles={"background": "#f4f1ea", "padding": "6px"},
+        )
+        curve_tab = pn.Column(pn.Row(self.fit_fig, sizing_mode="stretch_width"),
+                              pn.Row(self.rx, self.ry, sizing_mode="stretch_width"),
+                              pn.Row(self.rh, self.numbers, sizing_mode="stretch_width"),
+                              sizing_mode="stretch_width")
+        cx_tab = pn.Column(pn.Row(self.fd, self.fl, sizing_mode="stretch_width"), self.fh,
+                           sizing_mode="stretch_width")
+        lc_tab = pn.Column(self.lc_fig, self.lc_text, sizing_mode="stretch_width")
+        help_tab = pn.pane.Markdown(HELP, sizing_mode="stretch_width")
+        tabs = pn.Tabs(("Curve & residuals", curve_tab), ("Error vs flexibility", cx_tab),
+                       ("Learning curve", lc_tab), ("How to read this", help_tab),
+                       dynamic=False, sizing_mode="stretch_width")
+        header = pn.Row(pn.pane.Markdown("## curvewright · how flexible may this curve be?",
+                                         styles={"color": plots.INK}), self.busy, sizing_mode="stretch_width")
+        caution = pn.pane.Alert(CAUTION, alert_type="warning", sizing_mode="stretch_width", name="caution")
+        return pn.Column(header, caution, self.status, pn.Row(controls, tabs, sizing_mode="stretch_width"),
+                         sizing_mode="stretch_width")
