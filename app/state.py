@@ -187,6 +187,20 @@ class Workbench(param.Parameterized):
         e = self.engine
         if e is None:
             return
+        with warnings.catch_warnings():
+            # the degree sweep touches every degree; only the current one deserves a note
+            warnings.simplefilter("ignore", NumericalWarning)
+            self._compute_outputs(e)
+        d = self.out["degree"]
+        need = d if e.intercept else d + 1
+        short = [i for i, sv in enumerate(e.solvers) if sv.rank < need]
+        self.out["warnings"] = [] if not short else [
+            f"Degree {d} needs at least {d + 1} distinct x values in every fold's training rows; "
+            f"{len(short)} fold(s) have fewer, so their fits are not unique at lambda = 0 "
+            "(a minimum-norm solution is used). Prefer a lower degree or a larger lambda."]
+        self.version += 1
+
+    def _compute_outputs(self, e) -> None:
         d, lam = min(self.degree, e.max_degree), self.lam
         theta = e.curve(d, lam)
         t_grid = e.domain.map(self._grid)
@@ -215,7 +229,6 @@ class Workbench(param.Parameterized):
                           "train": np.array([b[2][0] for b in by_degree])},
             "by_lambda": {"lam": lam_axis, "cv": by_lam[0], "se": by_lam[1], "train": by_lam[2]},
         }
-        self.version += 1
 
     # ---- actions -----------------------------------------------------------------
     def recommend(self, rule: str) -> None:

@@ -78,43 +78,43 @@ class Workspace(param.Parameterized):
     # ---- widgets ------------------------------------------------------------------
     def _build_widgets(self):
         s = self.state
-        self.degree = pn.widgets.IntSlider.from_param(s.param.degree, name="Degree", sizing_mode="stretch_width")
-        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, name="log10 lambda (left end: 0)",
+        self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", sizing_mode="stretch_width")
+        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="log10 lambda (left end: 0)",
                                                      sizing_mode="stretch_width")
-        self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, name="Training fraction",
+        self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, label="Training fraction",
                                                       sizing_mode="stretch_width")
-        self.folds = pn.widgets.IntInput.from_param(s.param.folds, name="Folds (k)", width=90)
-        self.seed = pn.widgets.IntInput.from_param(s.param.seed, name="Seed", width=90)
-        self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, name="Sealed-test fraction",
+        self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds (k)", width=90)
+        self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", width=90)
+        self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction",
                                                       sizing_mode="stretch_width")
         for w in (self.degree, self.lam):
             w.param.update(throttled=False) if "throttled" in w.param else None
-        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", name="Data file",
+        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", label="Data file",
                                            sizing_mode="stretch_width")
         self.upload.param.watch(self._on_upload, "value")
         cols = s.columns or [""]
-        self.xcol = pn.widgets.Select(name="x column", options=cols, value=s.x_column or cols[0], width=150)
-        self.ycol = pn.widgets.Select(name="y column", options=cols, value=s.y_column or cols[-1], width=150)
-        self.wcol = pn.widgets.Select(name="weights (optional)", options=[""] + cols, value=s.weight_column, width=150)
-        self.apply_cols = pn.widgets.Button(name="Use these columns", button_type="default")
+        self.xcol = pn.widgets.Select(label="x column", options=cols, value=s.x_column or cols[0], width=150)
+        self.ycol = pn.widgets.Select(label="y column", options=cols, value=s.y_column or cols[-1], width=150)
+        self.wcol = pn.widgets.Select(label="weights (optional)", options=[""] + cols, value=s.weight_column, width=150)
+        self.apply_cols = pn.widgets.Button(label="Use these columns", color="default")
         self.apply_cols.on_click(lambda e: self._safe(lambda: s.select_columns(self.xcol.value, self.ycol.value,
                                                                                   self.wcol.value)))
-        self.rec_min = pn.widgets.Button(name="Suggest: lowest CV error", button_type="primary")
-        self.rec_1se = pn.widgets.Button(name="Suggest: simplest within 1 SE", button_type="primary")
+        self.rec_min = pn.widgets.Button(label="Suggest: lowest CV error", color="primary")
+        self.rec_1se = pn.widgets.Button(label="Suggest: simplest within 1 SE", color="primary")
         self.rec_min.on_click(lambda e: self._safe(lambda: s.recommend("min")))
         self.rec_1se.on_click(lambda e: self._safe(lambda: s.recommend("1se")))
-        self.lc_button = pn.widgets.Button(name="Learning curve", button_type="default")
+        self.lc_button = pn.widgets.Button(label="Learning curve", color="default")
         self.lc_button.on_click(lambda e: self._safe(s.compute_learning_curve))
-        self.reveal = pn.widgets.Button(name="Reveal sealed test…", button_type="warning")
-        self.confirm = pn.widgets.Checkbox(name="I have made my choice; reveal and record it", visible=False)
-        self.confirm_btn = pn.widgets.Button(name="Confirm reveal", button_type="danger", visible=False)
+        self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning")
+        self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False)
+        self.confirm_btn = pn.widgets.Button(label="Confirm reveal", color="danger", visible=False)
         self.reveal.on_click(self._ask_reveal)
         self.confirm_btn.on_click(self._do_reveal)
-        self.notes = pn.widgets.TextAreaInput(name="Notes for the export", height=70, sizing_mode="stretch_width")
+        self.notes = pn.widgets.TextAreaInput(label="Notes for the export", height=70, sizing_mode="stretch_width")
         self.download = pn.widgets.FileDownload(callback=self._export, filename="curve_choice.json",
-                                                label="Export choice (JSON)", button_type="success",
+                                                label="Export choice (JSON)", color="success",
                                                 sizing_mode="stretch_width")
-        self.save_beside = pn.widgets.Button(name="Save next to the data file", button_type="default")
+        self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default")
         self.save_beside.on_click(self._save_beside)
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
         s.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
@@ -174,6 +174,10 @@ class Workspace(param.Parameterized):
         self.status.alert_type = "danger" if text.startswith(("Could not", "Export failed", "Not saved")) else "light"
 
     def _on_data(self, *_):
+        with pn.io.unlocked():
+            self._update_data_views()
+
+    def _update_data_views(self):
         s = self.state
         if s.surface is not None:
             self.cx_src["heat"].data = plots.heat_columns(s.surface)
@@ -188,6 +192,12 @@ class Workspace(param.Parameterized):
         self.lc_text.object = "Press *Learning curve* to compute it for the current setting."
 
     def _on_version(self, *_):
+        # Button events arrive outside the document lock; ``unlocked`` sends the
+        # model changes straight to this session's page (Panel's documented way).
+        with pn.io.unlocked():
+            self._update_views()
+
+    def _update_views(self):
         s = self.state
         out = s.out
         if not out:
@@ -248,6 +258,8 @@ class Workspace(param.Parameterized):
             lines.append(f"| {'1' if k == 0 else ('x' if k == 1 else f'x^{k}')} | {a:.10g} |")
         lines.append("")
         lines.append("Standard errors and the exact least-squares numbers are in the export and `curvewright fit`.")
+        for w in out.get("warnings", [])[:2]:
+            lines.append(f"\n*Note:* {w}")
         return "\n".join(lines)
 
     # ---- layout ---------------------------------------------------------------------

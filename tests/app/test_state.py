@@ -1,0 +1,113 @@
+"""The workbench state without a browser: its outputs equal core's."""
+
+import json
+import math
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pytest
+
+import core
+from app.state import LOG_LAMBDA_OFF, Workbench
+from core.choice import SCHEMA, Choice
+
+ROOT = Path(__file__).resolve().parents[2]
+FURNACE = ROOT / "sample_sets" / "furnace_yield.csv"
+
+
+@pytest.fixture
+def wb():
+    return Workbench(FURNACE)
+
+
+def training_rows(wb):
+    keep = wb._keep
+    rows = np.flatnonzero(keep)[~wb.engine.plan.test_mask]
+    return wb.table.x.values[rows], wb.table.y.values[rows]
+
+
+def test_curve_equals_core_fit_on_training_rows(wb):
+    """Moving degree and lambda gives core.fit's curve for the same training rows."""
+    x, y = training_rows(wb)
+    for d, loglam in ((2, -3.0), (5, -1.0), (7, 1.0)):
+        wb.degree, wb.log_lambda = d, loglam
+        ref = core.fit(x, y, d, 10 ** loglam)
+        np.testing.assert_allclose(wb.out["curve"], ref.predict(wb.out["grid"]), rtol=1e-9)
+        assert wb.out["effective_df"] == pytest.approx(ref.effective_df, rel=1e-9)
+
+
+def test_cv_numbers_equal_core_sweep(wb):
+    """The live CV MSE equals core.sweep with the page's folds, seed and sealed fraction."""
+    wb.degree, wb.log_lambda = 4, -2.0
+    t = wb.table
+    s = core.sweep(t.x.values, t.y.values, [4], [1e-2], folds=wb.folds, seed=wb.seed,
+                   test_fraction=wb.test_fraction)
+    assert wb.out["cv_mse"] == pytest.approx(s.cv_mse[0, 0], rel=1e-12)
+    assert wb.out["cv_mse_se"] == pytest.approx(s.cv_mse_se[0, 0], rel=1e-12)
+
+
+def test_lambda_slider_left_end_is_exactly_zero(wb):
+    wb.log_lambda = LOG_LAMBDA_OFF
+    assert wb.lam == 0.0
+    x, y = training_rows(wb)
+    np.testing.assert_allclose(wb.out["curve"], core.fit(x, y, wb.degree, 0.0).predict(wb.out["grid"]), rtol=1e-9)
+
+
+def test_recommend_jumps_to_the_rule(wb):
+    wb.recommend("1se")
+    rec = wb.surface.recommended["1se"]
+    assert wb.degree == rec.degree and wb.lam == pytest.approx(rec.lam, rel=1e-12)
+
+
+def test_new_folds_rebuild_statistics(wb):
+    before = wb.out["cv_mse"]
+    wb.seed = 7
+    assert wb.engine.plan.seed == 7 and wb.out["cv_mse"] != before
+
+
+def test_training_fraction_sets_rows_aside(wb):
+    wb.train_fraction = 0.5
+    n_aside = wb.out["aside_x"].size
+    assert 15 < n_aside < 45 and wb.engine.plan.n == 60 - n_aside
+
+
+def test_bad_file_keeps_previous_data(wb, tmp_path):
+    bad = tmp_path / "bad.csv"
+    bad.write_text("a,b\n1,x\n2,3\n")
+    before = wb.table
+    assert not wb.load_bytes(bad.read_bytes(), "bad.csv")
+    assert wb.table is before
+    assert "Could not load bad.csv" in wb.status and "row 2" in wb.status
+
+
+def test_reveal_is_recorded_in_the_export(wb):
+    wb.degree, wb.log_lambda = 3, -2.0
+    doc = wb.choice().to_dict()
+    assert doc["validation"]["sealed_test"]["revealed"] is False
+    mse = wb.reveal_test()
+    doc = wb.choice("checked by A. Tester").to_dict()
+    st = doc["validation"]["sealed_test"]
+    assert st["revealed"] and st["mse"] == mse and st["revealed_at"]
+    assert doc["notes"] == "checked by A. Tester"
+
+
+def test_export_validates_and_predicts_like_the_fit(wb, tmp_path):
+    """The exported JSON matches the shipped schema; loaded back it predicts like core.fit."""
+    wb.recommend("min")
+    c = wb.choice()
+    jsonschema.validate(json.loads(c.to_json()), SCHEMA)
+    x, y = training_rows(wb)
+    ref = core.fit(x, y, wb.degree, wb.lam)
+    path = c.save(tmp_path / "c.json")
+    loaded = Choice.load(path)
+    grid = np.linspace(600, 950, 101)
+    assert np.array_equal(loaded.predict(grid), ref.predict(grid))
+    assert c.doc["validation"]["rule"] == "min"
+    assert c.doc["validation"]["cv_rmse"] == pytest.approx(math.sqrt(wb.out["cv_mse"]))
+
+
+def test_sessions_are_independent():
+    a, b = Workbench(FURNACE), Workbench(FURNACE)
+    a.degree = 8
+    assert b.degree == 3 and b.out["degree"] == 3

@@ -1,0 +1,141 @@
+"""The workbench in headless chromium: sliders, reveal, upload, export, independent sessions."""
+
+import json
+import time
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pytest
+from playwright.sync_api import expect
+
+import core
+from app.state import Workbench
+from core.choice import SCHEMA
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample_sets" / "furnace_yield.csv"
+CURVE = "() => Array.from(Bokeh.documents[0].get_model_by_name('fit_curve').data.y)"
+CURVE_X = "() => Array.from(Bokeh.documents[0].get_model_by_name('fit_curve').data.x)"
+
+
+def curve(page):
+    return np.array(page.evaluate(CURVE))
+
+
+def wait_curve_change(page, before, timeout=10):
+    end = time.time() + timeout
+    while time.time() < end:
+        now = curve(page)
+        if now.shape != before.shape or not np.allclose(now, before, rtol=0, atol=0):
+            return now
+        time.sleep(0.05)
+    raise AssertionError("the plotted curve did not change")
+
+
+def expected_curve(page, degree, lam):
+    """core.fit on the page's training rows (same seed, folds, sealed fraction), at the page's x grid."""
+    ref = Workbench(SAMPLE)
+    rows = np.flatnonzero(ref._keep)[~ref.engine.plan.test_mask]
+    fit = core.fit(ref.table.x.values[rows], ref.table.y.values[rows], degree, lam)
+    return fit.predict(np.array(page.evaluate(CURVE_X)))
+
+
+def slider(page, i):
+    return page.locator("[role=slider]").nth(i)
+
+
+def test_page_loads_with_caution_and_screenshot(workbench, artifacts):
+    page = workbench
+    assert page.get_by_text("Local codes, standards and licensed professional practice govern").count() == 1
+    assert page.get_by_text("Suggest: simplest within 1 SE").count() == 1
+    page.screenshot(path=str(artifacts / "workbench.png"), full_page=True)
+    assert (artifacts / "workbench.png").stat().st_size > 10_000
+
+
+def test_keyboard_moves_degree_and_curve_equals_core(workbench):
+    page = workbench
+    before = curve(page)
+    slider(page, 0).focus()
+    page.keyboard.press("ArrowRight")
+    page.keyboard.press("ArrowRight")
+    expect(slider(page, 0)).to_have_attribute("aria-valuenow", "5.0")
+    deadline = time.time() + 10
+    want = expected_curve(page, 5, 1e-3)
+    while time.time() < deadline and not np.allclose(curve(page), want, rtol=1e-9):
+        time.sleep(0.05)
+    np.testing.assert_allclose(curve(page), want, rtol=1e-9)
+    assert not np.allclose(before, want)
+
+
+def test_mouse_drag_moves_lambda(workbench):
+    page = workbench
+    before = curve(page)
+    handle = slider(page, 1)
+    box = handle.bounding_box()
+    page.mouse.move(box["x"] + box["width"] / 2, box["y"] + box["height"] / 2)
+    page.mouse.down()
+    page.mouse.move(box["x"] + 120, box["y"] + box["height"] / 2, steps=8)
+    page.mouse.up()
+    after = wait_curve_change(page, before)
+    loglam = float(handle.get_attribute("aria-valuenow"))
+    assert loglam > -3.0
+    time.sleep(0.5)
+    np.testing.assert_allclose(curve(page), expected_curve(page, 3, 10 ** loglam), rtol=1e-9)
+    assert after.shape == before.shape
+
+
+def test_reveal_sealed_test_needs_confirmation(workbench):
+    page = workbench
+    sealed = "() => Bokeh.documents[0].get_model_by_name('sealed_points').data.x.length"
+    assert page.evaluate(sealed) == 0
+    page.get_by_role("button", name="Reveal sealed test…").click()
+    page.get_by_role("button", name="Confirm reveal").click()
+    page.get_by_text("Tick the confirmation box").wait_for()
+    assert page.evaluate(sealed) == 0
+    page.locator("input[type=checkbox]").first.check()
+    page.get_by_role("button", name="Confirm reveal").click()
+    page.get_by_text("Sealed test revealed: RMSE").first.wait_for()
+    page.wait_for_function(sealed + " > 0", timeout=10000)
+
+
+def test_bad_upload_shows_message_and_keeps_data(workbench, tmp_path):
+    page = workbench
+    bad = tmp_path / "broken.csv"
+    bad.write_text("temp,reading\n1,2\n2,n/a\n")
+    before = curve(page)
+    page.locator("input[type=file]").set_input_files(str(bad))
+    page.get_by_text("Could not load broken.csv").wait_for(timeout=10000)
+    assert page.get_by_text("row 3").count() >= 1
+    np.testing.assert_array_equal(curve(page), before)
+
+
+def test_export_downloads_schema_valid_json(workbench, tmp_path):
+    page = workbench
+    page.get_by_role("button", name="Suggest: simplest within 1 SE").click()
+    page.wait_for_timeout(500)
+    with page.expect_download() as d:
+        page.get_by_text("Export choice (JSON)").click()
+    path = tmp_path / "choice.json"
+    d.value.save_as(path)
+    doc = json.loads(path.read_text())
+    jsonschema.validate(doc, SCHEMA)
+    assert doc["validation"]["rule"] == "1se"
+    assert doc["data"]["file"] == "furnace_yield.csv"
+
+
+def test_two_pages_are_independent(workbench, context, app_url):
+    first = workbench
+    second = context.new_page()
+    second.set_viewport_size({"width": 1500, "height": 1100})
+    second.goto(app_url)
+    second.wait_for_function("() => window.Bokeh && Bokeh.documents.length > 0"
+                             " && Bokeh.documents[0].get_model_by_name('fit_curve')"
+                             " && Bokeh.documents[0].get_model_by_name('fit_curve').data.y.length > 0")
+    before2 = curve(second)
+    slider(first, 0).focus()
+    for _ in range(4):
+        first.keyboard.press("ArrowRight")
+    expect(slider(first, 0)).to_have_attribute("aria-valuenow", "7.0")
+    time.sleep(0.8)
+    assert slider(second, 0).get_attribute("aria-valuenow") == "3.0"
+    np.testing.assert_array_equal(curve(second), before2)
