@@ -26,4 +26,5 @@ def serve(path=None, *, port: int = 5006, show: bool = True, address: str = "127
         raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
     pn.extension(notifications=False)
     return pn.serve({"/": lambda: build_page(path)}, port=port, address=address, show=show,
-                    title="curvewright", threaded=threaded, websocket_origin="*")
+                    title="curvewright", threaded=threaded,
+                    websocket_origin=[f"{address}:{port}", f"localhost:{port}", f"127.0.0.1:{port}"])

@@ -125,39 +125,34 @@ def _pick(frame, spec, role: str, fname: str) -> str:
 
 
 def _numbers(frame, col: str, fname: str, missing: str, decimal: str = "."):
+    """Float values and a missing-mask of one column; the first bad cell raises with its row."""
     import pandas as pd
 
     raw = frame[col]
-    vals = np.empty(len(raw))
-    miss = np.zeros(len(raw), dtype=bool)
-    for i, v in enumerate(raw.tolist()):
-        if v is None or (isinstance(v, float) and np.isnan(v)) or (isinstance(v, str) and not v.strip()):
-            miss[i] = True
-            vals[i] = np.nan
-            continue
-        if isinstance(v, str):
-            s = v.strip()
-            if decimal == ",":
-                s = s.replace(".", "").replace(",", ".") if s.count(",") == 1 else s
-            try:
-                f = float(s)
-            except ValueError:
-                raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a number", repr(v),
-                                        "Mark missing values as empty cells or pass --missing drop")) from None
-        else:
-            try:
-                f = float(v)
-            except (TypeError, ValueError):
-                raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a number", repr(v))) from None
-        if np.isnan(f):
-            miss[i] = True
-        elif not np.isfinite(f):
-            raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a finite number", repr(v),
-                                    "Replace infinite values or remove the row"))
-        elif abs(f) > MAX_ABS:
-            raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", f"|value| <= {MAX_ABS:g}",
-                                    f"{f:g}", "Rescale the column (change its unit)"))
-        vals[i] = f
+    if raw.dtype == object or pd.api.types.is_string_dtype(raw.dtype):
+        text = raw.astype(str).str.strip()
+        miss = raw.isna().to_numpy() | (text == "").to_numpy() | text.str.lower().isin(["nan"]).to_numpy()
+        if decimal == ",":
+            text = text.str.replace(".", "", regex=False).str.replace(",", ".", regex=False)
+        vals = pd.to_numeric(text.where(~miss, None), errors="coerce").to_numpy(dtype=float)
+    else:
+        vals = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float)
+        miss = np.isnan(vals)
+    bad = np.flatnonzero(np.isnan(vals) & ~miss)
+    if bad.size:
+        i = int(bad[0])
+        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a number", repr(raw.iloc[i]),
+                                "Mark missing values as empty cells or pass --missing drop"))
+    inf = np.flatnonzero(np.isinf(vals))
+    if inf.size:
+        i = int(inf[0])
+        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a finite number",
+                                repr(raw.iloc[i]), "Replace infinite values or remove the row"))
+    big = np.flatnonzero(np.abs(np.nan_to_num(vals)) > MAX_ABS)
+    if big.size:
+        i = int(big[0])
+        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", f"|value| <= {MAX_ABS:g}",
+                                f"{vals[i]:g}", "Rescale the column (change its unit)"))
     return vals, miss
 
 
