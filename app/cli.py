@@ -10,6 +10,7 @@ import json
 import math
 import sys
 import warnings
+from pathlib import Path
 
 import numpy as np
 
@@ -101,6 +102,11 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--seed", type=int, default=0)
     s.add_argument("--test-fraction", type=float, default=0.0)
     s.add_argument("--json", help="write the surface as JSON here")
+    s.add_argument("--save", help="write the choice file (JSON) for the recommended or picked curve")
+    s.add_argument("--rule", choices=["1se", "min"], default="1se", help="recommendation saved by --save")
+    s.add_argument("--pick-degree", type=int, help="save this degree instead of the recommendation")
+    s.add_argument("--pick-lambda", type=float, help="save this lambda instead of the recommendation")
+    s.add_argument("--notes", default="", help="free text stored in the choice file")
     s.add_argument("--force", action="store_true")
 
     lc = sub.add_parser("learn", help="learning curve of one configuration")
@@ -113,6 +119,30 @@ def build_parser() -> argparse.ArgumentParser:
     lc.add_argument("--seed", type=int, default=0)
     lc.add_argument("--json")
     lc.add_argument("--force", action="store_true")
+    sc = sub.add_parser("schema", help="print the choice file's JSON Schema")
+    sc.add_argument("--out", help="write it to a file instead")
+    sc.add_argument("--force", action="store_true")
+
+    ap = sub.add_parser("apply", help="predict new rows with a saved choice file")
+    ap.add_argument("choice", help="choice file (JSON)")
+    ap.add_argument("data", help="rows to predict (CSV/TSV, .xlsx, .parquet)")
+    ap.add_argument("--x", required=True)
+    ap.add_argument("--out", help="output CSV (default: standard output)")
+    ap.add_argument("--level", type=float, default=0.95, help="prediction-interval coverage")
+    ap.add_argument("--missing", choices=["refuse", "drop"], default="refuse")
+    ap.add_argument("--sheet")
+    ap.add_argument("--force", action="store_true")
+
+    ck = sub.add_parser("check", help="score a saved choice file on new labelled rows")
+    ck.add_argument("choice")
+    ck.add_argument("data")
+    ck.add_argument("--x", required=True)
+    ck.add_argument("--y", required=True)
+    ck.add_argument("--missing", choices=["refuse", "drop"], default="refuse")
+    ck.add_argument("--sheet")
+    ck.add_argument("--json")
+    ck.add_argument("--force", action="store_true")
+
     o = sub.add_parser("open", help="start the workbench page on 127.0.0.1 and open it in the browser")
     o.add_argument("data", nargs="?", help="data file (default: a bundled invented sample set)")
     o.add_argument("--port", type=int, default=5006)
@@ -196,6 +226,103 @@ def cmd_sweep(args, out):
               f"{s.cv_mse_se[i, j]:>10.3g}  {math.sqrt(s.train_mse[i, j]):>12.6g}", file=out)
     if args.json:
         write_atomic(args.json, json.dumps(s.to_dict(), indent=2), force=args.force)
+    if args.save:
+        _save_choice(args, t, s, out)
+    return 0
+
+
+def _save_choice(args, t, s, out):
+    from core.choice import make_choice, rule_of
+
+    if (args.pick_degree is None) != (args.pick_lambda is None):
+        raise ParameterError(message("Options --pick-degree and --pick-lambda", "both or neither", "only one"))
+    if args.pick_degree is not None:
+        d, lam = args.pick_degree, args.pick_lambda
+        if d not in set(int(v) for v in s.degrees):
+            raise ParameterError(message("Option --pick-degree", "one of the swept degrees", d))
+    else:
+        rec = s.recommended[args.rule]
+        d, lam = rec.degree, rec.lam
+    data = {"file": Path(t.path).name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
+            "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
+            "x_unit": t.x.unit, "y_unit": t.y.unit}
+    c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data, weights=t.weights,
+                    weights_column=t.weight_column, notes=args.notes, version=core.__version__)
+    c.save(args.save, force=args.force)
+    print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
+
+
+def cmd_schema(args, out):
+    from core.choice import SCHEMA
+
+    text = json.dumps(SCHEMA, indent=2)
+    if args.out:
+        write_atomic(args.out, text + "\n", force=args.force)
+    else:
+        print(text, file=out)
+    return 0
+
+
+def _load_rows(path, x, y, missing, sheet):
+    """Validated x (and y) plus the original frame's kept rows, for apply/check."""
+    from core.table import _read_frame
+
+    t = read_table(path, x=x, y=y, missing=missing, sheet=sheet, require_spread=False)
+    frame, _, _ = _read_frame(Path(path), sheet)
+    drop = set(r - 2 for r in t.rows_dropped)
+    frame = frame.iloc[[i for i in range(len(frame)) if i not in drop]].reset_index(drop=True)
+    return t, frame
+
+
+def cmd_apply(args, out):
+    from core.choice import Choice
+
+    c = Choice.load(args.choice)
+    t, frame = _load_rows(args.data, args.x, None, args.missing, args.sheet)
+    x = t.x.values
+    frame["prediction"] = c.predict(x)
+    if c.has_interval:
+        _, lo, hi = c.predict(x, interval="prediction", level=args.level)
+        pct = f"{100 * args.level:g}"
+        frame[f"prediction_lower_{pct}"] = lo
+        frame[f"prediction_upper_{pct}"] = hi
+    lo_x, hi_x = c.x_range
+    outside = (x < lo_x) | (x > hi_x)
+    frame["outside_fitted_range"] = outside
+    text = frame.to_csv(index=False)
+    if args.out:
+        write_atomic(args.out, text, force=args.force)
+        print(f"wrote {len(frame)} predictions to {args.out}", file=out)
+    else:
+        out.write(text)
+    if outside.any():
+        print(f"warning: {int(outside.sum())} row(s) lie outside the fitted x range [{lo_x:g}, {hi_x:g}]: "
+              "those predictions are extrapolations.", file=sys.stderr)
+    if not c.has_interval:
+        print("note: no prediction interval: the choice has lambda > 0 (classical intervals need lambda = 0).",
+              file=sys.stderr)
+    return 0
+
+
+def cmd_check(args, out):
+    from core.choice import Choice, score
+
+    c = Choice.load(args.choice)
+    t, _ = _load_rows(args.data, args.x, args.y, args.missing, args.sheet)
+    sc = score(c, t.x.values, t.y.values)
+    print(f"{sc['n']} rows: RMSE {sc['rmse']:.6g}  MAE {sc['mae']:.6g}  max |error| {sc['max_abs_error']:.6g}"
+          f"  bias (mean of y - prediction) {sc['bias']:.6g}", file=out)
+    print(f"saved curve's CV RMSE was {c.doc['validation']['cv_rmse']:.6g}", file=out)
+    if sc["outside_fitted_range"]:
+        print(f"warning: {sc['outside_fitted_range']} row(s) outside the fitted x range "
+              f"[{sc['fitted_x_range'][0]:g}, {sc['fitted_x_range'][1]:g}] (extrapolation).", file=sys.stderr)
+    if t.columns_sha256 == c.doc["data"]["columns_sha256"]:
+        print("warning: these are the rows the curve was chosen on (same fingerprint): not an independent check.",
+              file=sys.stderr)
+    else:
+        print("note: data fingerprint differs from the data the curve was chosen on.", file=sys.stderr)
+    if args.json:
+        write_atomic(args.json, json.dumps(sc, indent=2), force=args.force)
     return 0
 
 
@@ -216,7 +343,8 @@ def cmd_learn(args, out):
     return 0
 
 
-COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn, "open": cmd_open}
+COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn, "open": cmd_open,
+            "schema": cmd_schema, "apply": cmd_apply, "check": cmd_check}
 
 
 def main(argv=None, out=None) -> int:

@@ -18,7 +18,7 @@ import param
 
 import core
 from core.basis import legval
-from core.choice import build_choice
+from core.choice import make_choice, rule_of
 from core.errors import CurvewrightError, NumericalWarning
 from core.table import read_table
 
@@ -271,20 +271,10 @@ class Workbench(param.Parameterized):
         """The choice document for the current setting (same format as the command line)."""
         e, t = self.engine, self.table
         d, lam = min(self.degree, e.max_degree), self.lam
-        keep = self._keep.copy()
-        train_rows = np.flatnonzero(keep)[~e.plan.test_mask]
-        w = None if t.weights is None else t.weights[train_rows]
-        fit = core.fit(t.x.values[train_rows], t.y.values[train_rows], d, lam, weights=w)
-        rec = {k: v.to_dict() for k, v in self.surface.recommended.items()}
-        rule = "manual"
-        for k, v in self.surface.recommended.items():
-            if v.degree == d and math.isclose(v.lam, lam, rel_tol=1e-6, abs_tol=0 if lam else 1e-300):
-                rule = k
-        info = {**self.surface.folds, "recommendation": rec, "sealed_test": self.surface.sealed.to_dict()}
+        w = None if t.weights is None else t.weights[self._keep]
         data = {"file": self._display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
-                "rows_used": int(train_rows.size), "rows_dropped": list(map(int, t.rows_dropped)),
-                "x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit,
-                "x_range": [float(fit.x_range[0]), float(fit.x_range[1])]}
-        cv = {"cv_mse": self.out["cv_mse"], "cv_mse_se": self.out["cv_mse_se"], "train_mse": fit.train_mse}
-        return build_choice(fit=fit, surface_info=info, rule=rule, cv=cv, data=data, notes=notes,
-                            weights_column=t.weight_column, version=core.__version__)
+                "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
+                "x_unit": t.x.unit, "y_unit": t.y.unit}
+        return make_choice(self._x, self._y, self.surface, d, lam, rule=rule_of(self.surface, d, lam),
+                           data=data, weights=w, weights_column=t.weight_column, notes=notes,
+                           version=core.__version__)

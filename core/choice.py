@@ -21,8 +21,9 @@ import numpy as np
 from .basis import Domain, legval
 from .errors import DataError, message
 from .files import write_atomic
+from .fit import interval_bounds
 
-__all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION", "build_choice"]
+__all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION", "build_choice", "make_choice", "rule_of"]
 
 FORMAT = "curvewright-choice"
 VERSION = 1
@@ -89,9 +90,64 @@ class Choice:
     def legendre(self) -> np.ndarray:
         return np.array(self.doc["model"]["legendre_coefficients"], dtype=float)
 
-    def predict(self, x) -> np.ndarray:
-        """Predictions at raw x from the stable form (bit-identical to the fit's)."""
-        return legval(self.domain.map(np.asarray(x, dtype=float)), self.legendre)
+    @property
+    def x_range(self) -> tuple[float, float]:
+        lo, hi = self.doc["data"]["x_range"]
+        return float(lo), float(hi)
+
+    @property
+    def has_interval(self) -> bool:
+        return self.doc["model"]["interval"] is not None
+
+    def predict(self, x, interval: str | None = None, level: float = 0.95):
+        """Predictions at raw x from the stable form (bit-identical to the fit's).
+
+        ``interval`` ("confidence" or "prediction") is available for lambda = 0
+        choices, which store the coefficient covariance; returns (yhat, lower, upper).
+        """
+        t = self.domain.map(np.asarray(x, dtype=float))
+        yhat = legval(t, self.legendre)
+        if interval is None:
+            return yhat
+        iv = self.doc["model"]["interval"]
+        cov = None if iv is None else np.array(iv["legendre_covariance"], dtype=float)
+        sd = None if iv is None else iv["residual_sd"]
+        df = None if iv is None else iv["df_residual"]
+        return (yhat, *interval_bounds(yhat, t, cov, sd, df, interval, level))
+
+    def to_sklearn(self):
+        """A fitted scikit-learn Pipeline predicting the same curve.
+
+        ``PolynomialFeatures(d, include_bias=False) -> StandardScaler -> Ridge``
+        with the scaler set to the identity and the ridge holding the raw-x power
+        coefficients, so it evaluates a0 + a1 x + ... + ad x^d. Raw powers round
+        for x far from zero or high degree, so agreement with ``predict`` is to
+        float rounding of that power form, not bit for bit.
+        """
+        from sklearn.linear_model import Ridge
+        from sklearn.pipeline import Pipeline
+        from sklearn.preprocessing import PolynomialFeatures, StandardScaler
+
+        m = self.doc["model"]
+        d = m["degree"]
+        a = np.zeros(d + 1)
+        first = 0 if m["intercept"] else 1
+        for k, row in zip(range(first, d + 1), m["power_coefficients"]):
+            a[k] = row["estimate"]
+        X0 = np.zeros((1, 1))
+        poly = PolynomialFeatures(max(d, 1), include_bias=False).fit(X0)
+        n_feat = max(d, 1)
+        scaler = StandardScaler()
+        scaler.mean_ = np.zeros(n_feat)
+        scaler.scale_ = np.ones(n_feat)
+        scaler.var_ = np.ones(n_feat)
+        scaler.n_features_in_ = n_feat
+        scaler.n_samples_seen_ = int(self.doc["data"]["rows_used"])
+        ridge = Ridge(alpha=m["lambda"], fit_intercept=True)
+        ridge.coef_ = a[1:] if d >= 1 else np.zeros(1)
+        ridge.intercept_ = float(a[0])
+        ridge.n_features_in_ = n_feat
+        return Pipeline([("polynomialfeatures", poly), ("standardscaler", scaler), ("ridge", ridge)])
 
     def to_dict(self) -> dict:
         return json.loads(json.dumps(self.doc))
@@ -101,6 +157,39 @@ class Choice:
 
     def save(self, path, *, force: bool = False) -> Path:
         return write_atomic(path, self.to_json() + "\n", force=force)
+
+
+def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
+                weights_column=None, notes: str = "", version: str = "0.1.0") -> Choice:
+    """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
+
+    Refits on the sweep's training rows (the sealed rows stay out), takes the CV
+    numbers from the sweep's statistics, and records the recommendation and the
+    sealed-test audit record.
+    """
+    from .fit import fit as _fit
+
+    eng = surface.engine
+    train = ~eng.plan.test_mask
+    x = np.asarray(x, dtype=float)[train]
+    y = np.asarray(y, dtype=float)[train]
+    w = None if weights is None else np.asarray(weights, dtype=float)[train]
+    f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept)
+    m, se, _ = eng.cv_summary(degree, [lam])
+    info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
+            "sealed_test": surface.sealed.to_dict()}
+    data = {**data, "rows_used": int(x.size), "x_range": [float(x.min()), float(x.max())]}
+    return build_choice(fit=f, surface_info=info, rule=rule,
+                        cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
+                        data=data, notes=notes, weights_column=weights_column, version=version)
+
+
+def rule_of(surface, degree: int, lam: float) -> str:
+    """'min' or '1se' when (degree, lambda) is that recommendation, else 'manual'."""
+    for name, rec in surface.recommended.items():
+        if rec.degree == degree and math.isclose(rec.lam, lam, rel_tol=1e-9, abs_tol=0.0):
+            return name
+    return "manual"
 
 
 def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, notes: str = "",
@@ -118,7 +207,10 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
         "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": "ridge", "intercept": fit.intercept,
                   "weights_column": weights_column, "domain": fit.domain.to_dict(),
                   "legendre_coefficients": [float(v) for v in fit.legendre],
-                  "power_coefficients": fit.power_table()},
+                  "power_coefficients": fit.power_table(),
+                  "interval": None if fit.legendre_cov is None else {
+                      "residual_sd": fit.residual_sd, "df_residual": fit.df_residual,
+                      "legendre_covariance": np.asarray(fit.legendre_cov).tolist()}},
         "validation": {"scheme": surface_info["scheme"], "k": surface_info["k"],
                        "repeats": surface_info["repeats"], "seed": surface_info["seed"],
                        "cv_mse": float(cv["cv_mse"]), "cv_rmse": math.sqrt(float(cv["cv_mse"])),
@@ -129,3 +221,16 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
         "notes": notes,
     }
     return Choice.from_dict(json.loads(json.dumps(doc)))
+
+
+def score(choice: Choice, x, y) -> dict:
+    """Scores of a saved curve on new labelled rows: RMSE, MAE, max |error|, bias (mean of y - yhat)."""
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    e = y - choice.predict(x)
+    lo, hi = choice.x_range
+    outside = (x < lo) | (x > hi)
+    return {"n": int(x.size), "rmse": float(np.sqrt(np.mean(e ** 2))), "mae": float(np.mean(np.abs(e))),
+            "max_abs_error": float(np.max(np.abs(e))), "bias": float(np.mean(e)),
+            "outside_fitted_range": int(outside.sum()),
+            "x_range": [float(x.min()), float(x.max())], "fitted_x_range": [lo, hi]}

@@ -23,7 +23,28 @@ from .moments import accumulate
 from .solve import FoldSolver, check_degree, check_lambdas
 from .validate import check_xyw
 
-__all__ = ["FitResult", "fit"]
+__all__ = ["FitResult", "fit", "interval_bounds"]
+
+
+def interval_bounds(yhat, t, cov, residual_sd, df, interval, level):
+    """Lower and upper t-based bounds from the Legendre-coefficient covariance (lambda = 0)."""
+    from scipy import stats
+
+    from .errors import ParameterError
+
+    if interval not in ("confidence", "prediction"):
+        raise ParameterError(message("Parameter 'interval'", "None, 'confidence' or 'prediction'", repr(interval)))
+    if not (0 < level < 1):
+        raise ParameterError(message("Parameter 'level'", "a number between 0 and 1", level))
+    if cov is None:
+        raise ParameterError(message("Interval", "a lambda = 0 fit (classical intervals)",
+                                     "a penalized fit", "Use lambda = 0 for t-based intervals"))
+    P = legendre_columns(np.asarray(t, dtype=float), cov.shape[0] - 1)
+    var = np.einsum("ij,jk,ik->i", P, cov, P)
+    if interval == "prediction":
+        var = var + residual_sd ** 2
+    half = stats.t.ppf(0.5 + level / 2, df) * np.sqrt(np.maximum(var, 0.0))
+    return yhat - half, yhat + half
 
 
 @dataclass(frozen=True)
@@ -76,16 +97,36 @@ class FitResult:
     train_mse: float
     weighted: bool
     x_range: tuple
+    legendre_cov: np.ndarray | None = field(default=None, repr=False)
 
     @property
     def terms(self) -> list[str]:
         first = 0 if self.intercept else 1
         return ["1" if k == 0 else ("x" if k == 1 else f"x^{k}") for k in range(first, self.degree + 1)]
 
-    def predict(self, x) -> np.ndarray:
-        """Predictions at raw x, ndarray of shape (m,), from the stable form."""
+    def predict(self, x, interval: str | None = None, level: float = 0.95):
+        """Predictions at raw x from the stable form.
+
+        Parameters
+        ----------
+        x : array_like of shape (m,)
+        interval : {None, "confidence", "prediction"}
+            With lambda = 0, the classical t-based interval for the mean curve
+            ("confidence") or for a new observation of unit weight ("prediction").
+        level : float
+            Coverage, e.g. 0.95.
+
+        Returns
+        -------
+        ndarray of shape (m,), or (prediction, lower, upper) with an interval.
+        """
         x = np.asarray(x, dtype=float)
-        return legval(self.domain.map(x), self.legendre)
+        t = self.domain.map(x)
+        yhat = legval(t, self.legendre)
+        if interval is None:
+            return yhat
+        return (yhat, *interval_bounds(yhat, t, self.legendre_cov, self.residual_sd,
+                                       self.df_residual, interval, level))
 
     def power_table(self) -> list[dict]:
         first = 0 if self.intercept else 1
@@ -137,6 +178,9 @@ def _ols_rows(x, y, w, degree, intercept, domain):
         legendre = theta.astype(np.float64)
         power = legendre_to_power(domain, theta)
         return legendre, power, sse, cov_unscaled, None
+    # theta_L = J theta_Q with J = [-p0[1:]; I]: carry the covariance to the Legendre form
+    J = np.vstack([-p0[1:][None, :], np.eye(degree)])
+    cov_unscaled = (J, cov_unscaled)
     legendre = np.empty(degree + 1)
     legendre[1:] = theta.astype(np.float64)
     legendre[0] = float(-(theta @ p0[1:].astype(ld)))
@@ -200,6 +244,7 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     else:
         sst = float(np.sum(w.astype(np.longdouble) * y.astype(np.longdouble) ** 2))
     se = None
+    leg_cov = None
     if lam == 0.0:
         if n <= p:
             raise DataError(message(f"Rows for degree {degree}", f"more than {p} rows", n))
@@ -208,8 +253,13 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         edf = float(p)
         resid_sd = float(np.sqrt(sse / df_res))
         first = 0 if intercept else 1
-        se_fit = legendre_cov_to_power_se(domain, resid_sd ** 2 * cov_u, first=first)
-        se = se_fit if intercept else np.concatenate([[np.nan], se_fit])
+        if intercept:
+            leg_cov = resid_sd ** 2 * cov_u
+            se = legendre_cov_to_power_se(domain, leg_cov)
+        else:
+            J, cq = cov_u
+            se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, resid_sd ** 2 * cq, first=1)])
+            leg_cov = resid_sd ** 2 * (J @ cq @ J.T)
     else:
         M = accumulate(x, y, labels=np.zeros((1, n), dtype=np.int16), n_cells=1,
                        domain=domain, max_degree=degree, weights=w)
@@ -228,4 +278,5 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     r2 = 1.0 - sse / sst if sst > 0 else float("nan")
     return FitResult(degree, lam, bool(intercept), domain, np.asarray(legendre, float),
                      np.asarray(power, float), se, resid_sd, float(r2), df_res, edf, int(n),
-                     float(sse), float(sse / np.sum(w)), weighted, (float(x.min()), float(x.max())))
+                     float(sse), float(sse / np.sum(w)), weighted, (float(x.min()), float(x.max())),
+                     leg_cov)

@@ -157,7 +157,7 @@ def _numbers(frame, col: str, fname: str, missing: str, decimal: str = "."):
 
 
 def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, fold=None,
-               missing: str = "refuse", sheet=None) -> Table:
+               missing: str = "refuse", sheet=None, require_spread: bool = True) -> Table:
     """Read one file and select its columns.
 
     Parameters
@@ -174,6 +174,8 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         Group column (grouped folds) or explicit fold column.
     missing : {"refuse", "drop"}
         Refuse rows with empty/NaN cells (listing them) or drop them.
+    require_spread : bool
+        Refuse a single distinct x (needed to fit; not to apply a saved curve).
 
     Raises
     ------
@@ -242,7 +244,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
             raise DataError(message(f"File '{fname}' column '{wname}' row {row}", "a positive uncertainty",
                                     f"{u[bad[0]]:g}", "Uncertainties must be > 0 (weight = 1/u^2)"))
         w = 1.0 / u ** 2
-    if np.unique(xv).size < 2:
+    if require_spread and np.unique(xv).size < 2:
         raise DataError(message(f"File '{fname}' column '{chosen['x']}'", "at least two distinct x values",
                                 f"only {xv[0]!r}", "A curve cannot be fitted against a single x value"))
     h = hashlib.sha256()
