@@ -79,7 +79,11 @@ class Choice:
         p = Path(path)
         if not p.is_file():
             raise DataError(message(f"Choice file '{p}'", "an existing file", "nothing at that path"))
-        return cls.from_json(p.read_text(encoding="utf-8"))
+        try:
+            text = p.read_bytes().decode("utf-8")
+        except UnicodeDecodeError:
+            raise DataError(message("Choice file", "valid JSON", "bytes that are not UTF-8 text")) from None
+        return cls.from_json(text)
 
     @property
     def domain(self) -> Domain:

@@ -73,6 +73,9 @@ def _read_frame(path: Path, sheet=None):
         raise DataError(message(f"File '{path.name}'", "a header row and data rows", "an empty file"))
     suffix = path.suffix.lower()
     if suffix in (".xlsx", ".xlsm"):
+        if not raw.startswith(b"PK"):
+            raise DataError(message(f"File '{path.name}'", "a readable .xlsx workbook",
+                                    "a file that is not a zip archive"))
         try:
             frame = pd.read_excel(io.BytesIO(raw), sheet_name=sheet or 0, dtype=object)
         except (ValueError, KeyError, OSError) as exc:
@@ -100,8 +103,12 @@ def _read_frame(path: Path, sheet=None):
         frame = pd.read_csv(io.StringIO(text), sep=sep, decimal=decimal, dtype=str,
                             keep_default_na=False, skip_blank_lines=True)
     except pd.errors.ParserError as exc:
+        m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
+        if m:
+            raise DataError(message(f"File '{path.name}' line {m.group(2)}", f"{m.group(1)} fields like the header",
+                                    m.group(3), "Check the delimiter and quoting of that line")) from None
         raise DataError(message(f"File '{path.name}'", "rows with the same number of fields as the header",
-                                str(exc).strip().split("\n")[-1])) from exc
+                                str(exc).strip().split("\n")[-1])) from None
     except pd.errors.EmptyDataError as exc:
         raise DataError(message(f"File '{path.name}'", "a header row and data rows", "no columns")) from exc
     frame.attrs["decimal"] = decimal
@@ -246,7 +253,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         w = 1.0 / u ** 2
     if require_spread and np.unique(xv).size < 2:
         raise DataError(message(f"File '{fname}' column '{chosen['x']}'", "at least two distinct x values",
-                                f"only {xv[0]!r}", "A curve cannot be fitted against a single x value"))
+                                f"only {float(xv[0])!r}", "A curve cannot be fitted against a single x value"))
     h = hashlib.sha256()
     for r in ("x", "y", "weights", "uncertainty"):
         if r in numeric:

@@ -1,0 +1,152 @@
+"""The choice file: schema round trip, tamper detection, bit-identical predictions, export."""
+
+import copy
+import json
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pytest
+
+import core
+from app.cli import main
+from core.choice import SCHEMA, Choice, make_choice, score
+from core.errors import DataError
+from core.files import FileExistsRefused, write_atomic
+
+ROOT = Path(__file__).resolve().parents[2]
+
+
+def invented(n=120, seed=0):
+    rng = np.random.default_rng(seed)
+    x = rng.uniform(0, 5, n)
+    return x, 1 + 0.5 * x - 0.2 * x ** 2 + 0.05 * rng.normal(size=n)
+
+
+def choice_for(lam=0.0, degree=2, test_fraction=0.25):
+    x, y = invented()
+    s = core.sweep(x, y, range(0, 6), [1e-3, 1e-1, 10.0], folds=5, test_fraction=test_fraction, seed=1)
+    data = {"file": "invented.csv", "file_sha256": None, "columns_sha256": "0" * 64, "rows_dropped": [],
+            "x_column": "x", "y_column": "y", "x_unit": None, "y_unit": None}
+    return make_choice(x, y, s, degree, lam, rule="manual", data=data), s, x, y
+
+
+def test_round_trip_predicts_bit_for_bit(tmp_path):
+    c, s, x, y = choice_for(lam=0.1)
+    train = ~s.engine.plan.test_mask
+    fit = core.fit(x[train], y[train], 2, 0.1)
+    loaded = Choice.load(c.save(tmp_path / "c.json"))
+    grid = np.linspace(-1, 6, 333)
+    assert np.array_equal(loaded.predict(grid), fit.predict(grid))
+    jsonschema.validate(json.loads((tmp_path / "c.json").read_text()), SCHEMA)
+    assert loaded.to_dict() == c.to_dict()
+
+
+def tampered(doc, path, value):
+    d = copy.deepcopy(doc)
+    node = d
+    for key in path[:-1]:
+        node = node[key]
+    if value is KeyError:
+        del node[path[-1]]
+    else:
+        node[path[-1]] = value
+    return d
+
+
+@pytest.mark.parametrize("path, value, text", [
+    (("version",), 2, "Choice file field 'version': expected 1, got 2."),
+    (("model", "degree"), "three", "Choice file field 'model/degree'"),
+    (("model", "lambda"), -1.0, "Choice file field 'model/lambda'"),
+    (("model", "penalty"), "magic", "Choice file field 'model/penalty'"),
+    (("data",), KeyError, "Choice file field '(top level)'"),
+    (("model", "legendre_coefficients"), [1.0, 2.0], "Choice file field 'model/legendre_coefficients': expected 3 numbers for degree 2, got 2."),
+    (("validation", "cv_rmse"), 123.0, "Choice file field 'validation/cv_rmse': expected the square root of cv_mse, got 123.0."),
+    (("model", "intercept"), "yes", "Choice file field 'model/intercept'"),
+    (("format",), "something-else", "Choice file field 'format'"),
+])
+def test_tampered_files_name_the_field(path, value, text):
+    c, *_ = choice_for()
+    with pytest.raises(DataError) as err:
+        Choice.from_dict(tampered(c.to_dict(), path, value))
+    assert str(err.value).startswith(text)
+
+
+def test_loading_never_executes_code(tmp_path):
+    """A pickle or a Python literal in the file is only data: refused as invalid JSON."""
+    import pickle
+
+    (tmp_path / "evil.json").write_bytes(pickle.dumps({"format": "curvewright-choice"}))
+    with pytest.raises(DataError, match="Choice file: expected valid JSON"):
+        Choice.load(tmp_path / "evil.json")
+
+
+def test_intervals_stored_at_lambda_zero_match_statsmodels():
+    """Prediction intervals from a saved lambda = 0 choice equal statsmodels OLS get_prediction
+    (invented data with x near zero, where the raw-power reference is accurate)."""
+    import statsmodels.api as sm
+
+    c, s, x, y = choice_for(lam=0.0, test_fraction=0.0)
+    grid = np.linspace(0, 5, 9)
+    yhat, lo, hi = c.predict(grid, interval="prediction")
+    ref = sm.OLS(y, np.vander(x, 3, increasing=True)).fit().get_prediction(np.vander(grid, 3, increasing=True))
+    frame = ref.summary_frame(alpha=0.05)
+    np.testing.assert_allclose(lo, frame.obs_ci_lower, rtol=1e-10)
+    np.testing.assert_allclose(hi, frame.obs_ci_upper, rtol=1e-10)
+    assert not choice_for(lam=0.1)[0].has_interval
+
+
+def test_to_sklearn_predicts_the_same():
+    c, *_ = choice_for(lam=0.1, degree=3)
+    pipe = c.to_sklearn()
+    grid = np.linspace(0, 5, 50)
+    np.testing.assert_allclose(pipe.predict(grid[:, None]), c.predict(grid), rtol=1e-12, atol=1e-12)
+
+
+def test_score_on_new_rows():
+    c, *_ = choice_for(lam=0.1)
+    x = np.array([0.5, 1.5, 6.0])
+    y = c.predict(x) + np.array([0.1, -0.1, 0.3])
+    sc = score(c, x, y)
+    assert sc["rmse"] == pytest.approx(np.sqrt((0.01 + 0.01 + 0.09) / 3))
+    assert sc["max_abs_error"] == pytest.approx(0.3) and sc["bias"] == pytest.approx(0.1)
+    assert sc["outside_fitted_range"] == 1
+
+
+def test_write_atomic_refuses_and_leaves_no_temporary(tmp_path):
+    p = tmp_path / "keep.json"
+    p.write_text("original")
+    with pytest.raises(FileExistsRefused):
+        write_atomic(p, "new")
+    assert p.read_text() == "original" and [q.name for q in tmp_path.iterdir()] == ["keep.json"]
+    write_atomic(p, "new", force=True)
+    assert p.read_text() == "new" and len(list(tmp_path.iterdir())) == 1
+
+
+def test_cli_save_apply_check_round_trip(tmp_path, capsys):
+    """sweep --save, then apply flags extrapolated rows and check scores new rows."""
+    data = ROOT / "sample_sets" / "beam_deflection.csv"
+    choice = tmp_path / "beam.json"
+    assert main(["sweep", str(data), "--x", "load", "--y", "deflection", "--degrees", "0-4", "--with-zero",
+                 "--folds", "5", "--group", "run", "--save", str(choice), "--pick-degree", "2",
+                 "--pick-lambda", "0", "--folds", "3"]) == 0
+    doc = json.loads(choice.read_text())
+    assert doc["validation"]["scheme"] == "group" and doc["model"]["interval"] is not None
+    new = tmp_path / "new.csv"
+    new.write_text("load [kN],note\n0.0,zero\n6.0,mid\n20.0,far\n")
+    out = tmp_path / "pred.csv"
+    capsys.readouterr()
+    assert main(["apply", str(choice), str(new), "--x", "load", "--out", str(out)]) == 0
+    err = capsys.readouterr().err
+    assert "2 row(s) lie outside the fitted x range" in err
+    import pandas as pd
+
+    pred = pd.read_csv(out)
+    assert list(pred.columns) == ["load [kN]", "note", "prediction", "prediction_lower_95", "prediction_upper_95",
+                                  "outside_fitted_range"]
+    assert pred["outside_fitted_range"].tolist() == [True, False, True]
+    np.testing.assert_array_equal(pred["prediction"], Choice.load(choice).predict([0.0, 6.0, 20.0]))
+    assert main(["apply", str(choice), str(new), "--x", "load", "--out", str(out)]) == 2
+    assert main(["check", str(choice), str(data), "--x", "load", "--y", "deflection"]) == 0
+    text = capsys.readouterr()
+    assert "RMSE" in text.out and "same fingerprint" in text.err
