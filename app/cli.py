@@ -101,6 +101,9 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--fold-column", help="explicit fold column")
     s.add_argument("--seed", type=int, default=0)
     s.add_argument("--test-fraction", type=float, default=0.0)
+    s.add_argument("--stream", action="store_true",
+                   help="read the file in chunks (automatic above 100 MB; CSV/TSV/Parquet)")
+    s.add_argument("--chunk-rows", type=int, default=500_000, help="rows per chunk when streaming")
     s.add_argument("--json", help="write the surface as JSON here")
     s.add_argument("--save", help="write the choice file (JSON) for the recommended or picked curve")
     s.add_argument("--rule", choices=["1se", "min"], default="1se", help="recommendation saved by --save")
@@ -196,18 +199,59 @@ def cmd_fit(args, out):
     return 0
 
 
+STREAM_BYTES = 100 * 2**20
+
+
+class _Progress:
+    """Rows done, rate and time left on one terminal line (stderr)."""
+
+    def __init__(self):
+        self.last = 0.0
+
+    def __call__(self, done, total, seconds):
+        if seconds - self.last < 0.5 and done < total:
+            return
+        self.last = seconds
+        rate = done / seconds if seconds > 0 else float("inf")
+        left = (total - done) / rate if rate > 0 else 0.0
+        sys.stderr.write(f"\rstatistics: {done:,}/{total:,} rows, {rate:,.0f} rows/s, {left:.0f} s left   ")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+
+def _sweep_streamed(args, degrees, lams):
+    from core.stream import sweep_file
+
+    if args.group or args.fold_column:
+        raise ParameterError(message("Option --stream", "k-fold folds (no --group or --fold-column)",
+                                     "a group or fold column", "Read the file whole for grouped or explicit folds"))
+    s, sc = sweep_file(args.data, degrees, lams, x=args.x, y=args.y, weights=args.weights,
+                       uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
+                       test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                       missing=args.missing, chunk_rows=args.chunk_rows, progress=_Progress())
+    if sc.rows_dropped:
+        print(f"note: dropped {len(sc.rows_dropped)} row(s) with missing values.", file=sys.stderr)
+    return s, sc
+
+
 def cmd_sweep(args, out):
-    extra = {"group": args.group, "fold": args.fold_column}
-    t = _read(args, extra)
     degrees = parse_degrees(args.degrees)
     lams = parse_grid(args.lambdas, log=True, option="--lambdas")
     if args.with_zero:
         lams = np.concatenate([[0.0], lams])
-    s = core.sweep(t.x.values, t.y.values, degrees, lams, folds=args.folds, repeats=args.repeats,
-                   groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
-                   test_fraction=args.test_fraction, intercept=not args.no_intercept)
+    path = Path(args.data)
+    streamable = path.suffix.lower() in (".csv", ".tsv", ".txt", ".parquet")
+    if args.stream or (streamable and path.is_file() and path.stat().st_size > STREAM_BYTES):
+        s, t = _sweep_streamed(args, degrees, lams)
+    else:
+        t = _read(args, {"group": args.group, "fold": args.fold_column})
+        s = core.sweep(t.x.values, t.y.values, degrees, lams, folds=args.folds, repeats=args.repeats,
+                       groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
+                       test_fraction=args.test_fraction, intercept=not args.no_intercept)
+    n_rows = t.rows_used if hasattr(t, "rows_used") else t.n
     f = s.folds
-    print(f"{t.n} rows ({s.n_train} for cross-validation, {f['n_test']} sealed); "
+    print(f"{n_rows} rows ({s.n_train} for cross-validation, {f['n_test']} sealed); "
           f"{f['scheme']} folds k={f['k']}, repeats={f['repeats']}, seed={f['seed']}", file=out)
     for name, rec in s.recommended.items():
         print(f"recommended ({name}): degree {rec.degree}, lambda {rec.lam:.4g} "
@@ -243,11 +287,18 @@ def _save_choice(args, t, s, out):
     else:
         rec = s.recommended[args.rule]
         d, lam = rec.degree, rec.lam
+    streamed = hasattr(t, "rows_used")
     data = {"file": Path(t.path).name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
-            "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
-            "x_unit": t.x.unit, "y_unit": t.y.unit}
-    c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data, weights=t.weights,
-                    weights_column=t.weight_column, notes=args.notes, version=core.__version__)
+            "rows_dropped": list(map(int, t.rows_dropped))}
+    if streamed:
+        data.update({"x_column": t.x_name, "y_column": t.y_name, "x_unit": t.x_unit, "y_unit": t.y_unit})
+        c = make_choice(None, None, s, d, lam, rule=rule_of(s, d, lam), data=data,
+                        weights_column=t.weight_name, notes=args.notes, version=core.__version__)
+    else:
+        data.update({"x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit})
+        c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
+                        weights=t.weights, weights_column=t.weight_column, notes=args.notes,
+                        version=core.__version__)
     c.save(args.save, force=args.force)
     print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
 

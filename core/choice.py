@@ -167,22 +167,29 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
                 weights_column=None, notes: str = "", version: str = "0.1.0") -> Choice:
     """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
 
-    Refits on the sweep's training rows (the sealed rows stay out), takes the CV
+    Refits on the sweep's training rows (the sealed rows stay out; with ``x=None``
+    the fit comes from the sweep's statistics, for streamed files), takes the CV
     numbers from the sweep's statistics, and records the recommendation and the
     sealed-test audit record.
     """
     from .fit import fit as _fit
+    from .fit import fit_from_engine
 
     eng = surface.engine
-    train = ~eng.plan.test_mask
-    x = np.asarray(x, dtype=float)[train]
-    y = np.asarray(y, dtype=float)[train]
-    w = None if weights is None else np.asarray(weights, dtype=float)[train]
-    f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept)
+    if x is None:   # streamed rows: the fit comes from the statistics
+        f = fit_from_engine(eng, degree, lam)
+        rows, xr = eng.n_train, list(f.x_range)
+    else:
+        train = ~eng.plan.test_mask
+        x = np.asarray(x, dtype=float)[train]
+        y = np.asarray(y, dtype=float)[train]
+        w = None if weights is None else np.asarray(weights, dtype=float)[train]
+        f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept)
+        rows, xr = int(x.size), [float(x.min()), float(x.max())]
     m, se, _ = eng.cv_summary(degree, [lam])
     info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
             "sealed_test": surface.sealed.to_dict()}
-    data = {**data, "rows_used": int(x.size), "x_range": [float(x.min()), float(x.max())]}
+    data = {**data, "rows_used": rows, "x_range": xr}
     return build_choice(fit=f, surface_info=info, rule=rule,
                         cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
                         data=data, notes=notes, weights_column=weights_column, version=version)

@@ -280,3 +280,56 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
                      np.asarray(power, float), se, resid_sd, float(r2), df_res, edf, int(n),
                      float(sse), float(sse / np.sum(w)), weighted, (float(x.min()), float(x.max())),
                      leg_cov)
+
+
+def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
+    """The fit on an engine's training rows, from its statistics alone (no rows needed).
+
+    Used when the rows were streamed from a file. At lambda = 0 the coefficient
+    covariance is s^2 (J' P'WP J)^-1 in the Legendre form (J = I with intercept,
+    the through-origin map otherwise), so standard errors and intervals match
+    ``fit`` to rounding; the row-based refinement of ``fit`` is not available.
+    """
+    degree = check_degree(degree, engine.max_degree)
+    lam = float(check_lambdas(lam)[0])
+    sv = engine.full
+    theta_w = sv.coefficients(degree, [lam])
+    sse = float(FoldSolver.sse(engine.full_stats, theta_w)[0])
+    legendre = theta_w[0].copy()
+    legendre[0] += sv.offset
+    n = engine.n_train
+    W = float(engine.full_stats[0, 0])
+    p = degree + 1 if sv.intercept else degree
+    edf = float(sv.effective_df(degree, [lam])[0])
+    S = engine.full_stats
+    if sv.intercept:
+        sst = float(sv.yy_centred)
+    else:
+        sst = float(S[-1, -1])
+    domain = engine.domain
+    se = leg_cov = None
+    if lam == 0.0:
+        df_res = float(n - p)
+        resid_sd = float(np.sqrt(sse / df_res))
+        G = S[:degree + 1, :degree + 1]
+        if sv.intercept:
+            cov_q = np.linalg.inv(G)
+            leg_cov = resid_sd ** 2 * cov_q
+            se = legendre_cov_to_power_se(domain, leg_cov)
+        else:
+            p0 = legendre_columns(np.array([domain.map(0.0)]), degree)[0]
+            J = np.vstack([-p0[1:][None, :], np.eye(degree)])
+            cov_q = np.linalg.inv(J.T @ G @ J)
+            se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, resid_sd ** 2 * cov_q, first=1)])
+            leg_cov = resid_sd ** 2 * (J @ cov_q @ J.T)
+    else:
+        df_res = float(n - edf)
+        resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
+    power = legendre_to_power(domain, legendre)
+    if not sv.intercept:
+        power[0] = 0.0
+    lo = domain.center - domain.half_width
+    hi = domain.center + domain.half_width
+    return FitResult(degree, lam, sv.intercept, domain, legendre, power, se, resid_sd,
+                     float(1 - sse / sst) if sst > 0 else float("nan"), df_res, edf, int(n), sse,
+                     sse / W, bool(not np.allclose(W, n)), (float(lo), float(hi)), leg_cov)

@@ -140,17 +140,14 @@ class Engine:
         return float(FoldSolver.sse(self.test_stats, theta)[0] / self.test_stats[0, 0])
 
 
-def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int = 1, groups=None,
-                 fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
-                 intercept: bool = True) -> Engine:
-    """Assign folds and run the one pass; see ``sweep`` for the parameters."""
-    x, y, w = check_xyw(x, y, weights)
-    max_degree = check_degree(max_degree)
-    plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
-                     seed=seed, test_fraction=test_fraction)
-    if not x.min() < x.max():
-        raise DataError(message("Column x", "at least two distinct values", f"only x = {x[0]!r}",
-                                "A curve cannot be fitted against a single x value"))
+def cell_labels(plan: FoldPlan, max_degree: int) -> np.ndarray:
+    """Cell of every row for each repeat (``r * k + fold``; sealed rows -> ``R * k`` in repeat 0).
+
+    Raises
+    ------
+    DataError
+        When a fold's training rows are fewer than max_degree + 1.
+    """
     k, R = plan.k, plan.repeats
     if R == 1:
         labels = plan.labels.copy()
@@ -170,10 +167,28 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
             f"Training rows of fold {i % k + 1}" + (f" (repeat {i // k + 1})" if R > 1 else ""),
             f"at least degree + 1 = {need} rows", int(train_rows[i]),
             "Lower the highest degree, use fewer folds or a smaller test fraction"))
-    xt = x[~plan.test_mask] if plan.n_test else x
-    domain = Domain.from_range(xt.min(), xt.max()) if xt.min() < xt.max() else \
-        Domain.from_range(x.min(), x.max())
-    mom = accumulate(x, y, labels=labels, n_cells=R * k + 1, domain=domain,
+    return labels
+
+
+def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int = 1, groups=None,
+                 fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
+                 intercept: bool = True) -> Engine:
+    """Assign folds and run the one pass; see ``sweep`` for the parameters.
+
+    The basis domain is the range of all rows (a choice of coordinates only:
+    standardization always uses the training rows), so a streamed file and
+    the same rows in memory give the same statistics.
+    """
+    x, y, w = check_xyw(x, y, weights)
+    max_degree = check_degree(max_degree)
+    plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
+                     seed=seed, test_fraction=test_fraction)
+    if not x.min() < x.max():
+        raise DataError(message("Column x", "at least two distinct values", f"only x = {float(x[0])!r}",
+                                "A curve cannot be fitted against a single x value"))
+    labels = cell_labels(plan, max_degree)
+    domain = Domain.from_range(x.min(), x.max())
+    mom = accumulate(x, y, labels=labels, n_cells=plan.repeats * plan.k + 1, domain=domain,
                      max_degree=max_degree, weights=None if weights is None else w)
     return Engine(mom, plan, intercept)
 

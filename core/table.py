@@ -62,6 +62,17 @@ class Table:
                 "rows": self.n, "x_min": float(xv.min()), "x_max": float(xv.max())}
 
 
+def columns_digest(digests: dict) -> str:
+    """Fingerprint of the selected columns' values: SHA-256 over "role:<sha256 of the role's
+    float64 values, little-endian, in row order>" lines for the roles present, in the order
+    x, y, weights, uncertainty. Streaming readers update the per-role hashes chunk by chunk."""
+    h = hashlib.sha256()
+    for role in ("x", "y", "weights", "uncertainty"):
+        if role in digests:
+            h.update(f"{role}:{digests[role].hexdigest()}\n".encode())
+    return h.hexdigest()
+
+
 def _read_frame(path: Path, sheet=None):
     import pandas as pd
 
@@ -131,8 +142,10 @@ def _pick(frame, spec, role: str, fname: str) -> str:
                             "no such column", "Pass --" + role + " with a column name or position"))
 
 
-def _numbers(frame, col: str, fname: str, missing: str, decimal: str = "."):
-    """Float values and a missing-mask of one column; the first bad cell raises with its row."""
+def _numbers(frame, col: str, fname: str, missing: str, decimal: str = ".", offset: int = 0):
+    """Float values and a missing-mask of one column; the first bad cell raises with its row.
+
+    ``offset`` is the number of data rows before this frame (for chunked reading)."""
     import pandas as pd
 
     raw = frame[col]
@@ -148,17 +161,17 @@ def _numbers(frame, col: str, fname: str, missing: str, decimal: str = "."):
     bad = np.flatnonzero(np.isnan(vals) & ~miss)
     if bad.size:
         i = int(bad[0])
-        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a number", repr(raw.iloc[i]),
+        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", "a number", repr(raw.iloc[i]),
                                 "Mark missing values as empty cells or pass --missing drop"))
     inf = np.flatnonzero(np.isinf(vals))
     if inf.size:
         i = int(inf[0])
-        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", "a finite number",
+        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", "a finite number",
                                 repr(raw.iloc[i]), "Replace infinite values or remove the row"))
     big = np.flatnonzero(np.abs(np.nan_to_num(vals)) > MAX_ABS)
     if big.size:
         i = int(big[0])
-        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2}", f"|value| <= {MAX_ABS:g}",
+        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", f"|value| <= {MAX_ABS:g}",
                                 f"{vals[i]:g}", "Rescale the column (change its unit)"))
     return vals, miss
 
@@ -254,15 +267,13 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     if require_spread and np.unique(xv).size < 2:
         raise DataError(message(f"File '{fname}' column '{chosen['x']}'", "at least two distinct x values",
                                 f"only {float(xv[0])!r}", "A curve cannot be fitted against a single x value"))
-    h = hashlib.sha256()
-    for r in ("x", "y", "weights", "uncertainty"):
-        if r in numeric:
-            h.update(r.encode())
-            h.update(np.ascontiguousarray(numeric[r][0][keep]).tobytes())
+    digests = {r: hashlib.sha256(np.ascontiguousarray(numeric[r][0][keep]).tobytes())
+               for r in ("x", "y", "weights", "uncertainty") if r in numeric}
+    h = columns_digest(digests)
     return Table(
         str(path), Column(chosen["x"], unit_of(chosen["x"]), xv),
         Column(chosen["y"], unit_of(chosen["y"]), yv) if yv is not None else None,
         w, wname,
         extra["group"][1][keep] if "group" in extra else None,
         extra["fold"][1][keep] if "fold" in extra else None,
-        int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h.hexdigest(), tuple(notices))
+        int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices))

@@ -1,0 +1,241 @@
+"""Sweeping a file too large to hold: read in chunks straight into the one-pass statistics.
+
+Two reads of the file, one pass of statistics:
+
+1. a scan parses the selected columns chunk by chunk, validates every value
+   (messages name the row), counts rows, finds the x range and hashes the
+   columns (the same fingerprint ``read_table`` gives);
+2. the folds are assigned for the counted rows (``core.folds``, same seeds, so
+   the result equals the in-memory sweep of the same rows), and a second read
+   feeds each chunk into ``core.moments.Accumulator``.
+
+Memory is O(chunk x columns) for parsing plus O(n) small integers for the
+fold labels; no dense copy of the columns is ever held. CSV/TSV/semicolon text
+and Parquet stream; .xlsx is read whole.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import re
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .basis import Domain
+from .errors import DataError, ParameterError, message
+from .folds import make_plan
+from .moments import Accumulator
+from .select import Engine, Surface, cell_labels, surface_from_engine
+from .solve import check_degree
+from .table import columns_digest, unit_of
+
+__all__ = ["Scan", "scan_file", "sweep_file", "iter_chunks"]
+
+
+@dataclass(frozen=True)
+class Scan:
+    """What the first read learnt about the file."""
+
+    path: str
+    rows_read: int
+    rows_used: int
+    rows_dropped: list = field(repr=False)
+    x_min: float
+    x_max: float
+    file_sha256: str
+    columns_sha256: str
+    x_name: str
+    y_name: str
+    weight_name: str | None
+    notices: tuple = ()
+
+    @property
+    def x_unit(self):
+        return unit_of(self.x_name)
+
+    @property
+    def y_unit(self):
+        return unit_of(self.y_name)
+
+
+def _sniff(path: Path):
+    head = path.open("rb").read(65536)
+    notices = []
+    try:
+        head.decode("utf-8")
+        encoding = "utf-8-sig"
+    except UnicodeDecodeError:
+        encoding = "latin-1"
+        notices.append(f"File '{path.name}' is not UTF-8; read it as Latin-1.")
+    text = head.decode(encoding, errors="ignore")
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+    if not first:
+        raise DataError(message(f"File '{path.name}'", "a header row and data rows", "an empty file"))
+    sep = max([",", ";", "\t"], key=first.count)
+    if first.count(sep) == 0:
+        sep = ","
+    decimal = "," if sep == ";" and re.search(r"\d,\d", text) else "."
+    return encoding, sep, decimal, notices
+
+
+def _resolve(columns: list[str], spec, role: str, fname: str) -> str:
+    from .table import _pick
+
+    class _F:  # _pick only needs .columns
+        pass
+    f = _F()
+    f.columns = columns
+    return _pick(f, spec, role, fname)
+
+
+def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
+    """Yield (resolved names, offset, frame of the selected columns as text) chunk by chunk."""
+    import pandas as pd
+
+    path = Path(path)
+    if not path.is_file():
+        raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
+    suffix = path.suffix.lower()
+    if suffix == ".parquet":
+        import pyarrow.parquet as pq
+
+        try:
+            pf = pq.ParquetFile(path)
+        except Exception as exc:  # pyarrow raises many unrelated types for a corrupt file
+            raise DataError(message(f"File '{path.name}'", "a readable Parquet file", type(exc).__name__)) from None
+        cols = list(pf.schema_arrow.names)
+        names = {r: _resolve(cols, s, r, path.name) for r, s in specs.items() if s is not None}
+        offset = 0
+        for batch in pf.iter_batches(batch_size=chunk_rows, columns=sorted(set(names.values()))):
+            frame = batch.to_pandas()
+            yield names, offset, frame, "."
+            offset += len(frame)
+        return
+    if suffix in (".xlsx", ".xlsm"):
+        from .table import _read_frame
+
+        frame, _, _ = _read_frame(path)
+        cols = [str(c) for c in frame.columns]
+        frame.columns = cols
+        names = {r: _resolve(cols, s, r, path.name) for r, s in specs.items() if s is not None}
+        yield names, 0, frame, "."
+        return
+    encoding, sep, decimal, _ = _sniff(path)
+    header = pd.read_csv(path, sep=sep, nrows=0, encoding=encoding)
+    cols = [str(c) for c in header.columns]
+    names = {r: _resolve(cols, s, r, path.name) for r, s in specs.items() if s is not None}
+    reader = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=False, encoding=encoding,
+                         usecols=sorted(set(names.values())), chunksize=chunk_rows, skip_blank_lines=True)
+    offset = 0
+    try:
+        for frame in reader:
+            yield names, offset, frame, decimal
+            offset += len(frame)
+    except pd.errors.ParserError as exc:
+        m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
+        where = f" line {m.group(2)}" if m else ""
+        raise DataError(message(f"File '{path.name}'{where}", "rows with the same number of fields as the header",
+                                f"{m.group(3)} fields" if m else str(exc).strip().split("\n")[-1],
+                                "Check the delimiter and quoting of that line")) from None
+
+
+def _columns(names, offset, frame, decimal, fname, missing):
+    """Validated float columns of one chunk and the mask of complete rows."""
+    from .table import _numbers
+
+    vals, miss = {}, np.zeros(len(frame), dtype=bool)
+    for role in ("x", "y", "weights", "uncertainty"):
+        if role in names:
+            v, m = _numbers(frame, names[role], fname, missing, decimal, offset=offset)
+            vals[role] = v
+            miss |= m
+    if miss.any() and missing == "refuse":
+        rows = (np.flatnonzero(miss) + offset + 2).tolist()
+        shown = ", ".join(map(str, rows[:12])) + (" ..." if len(rows) > 12 else "")
+        raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
+                                f"{len(rows)} row(s) with empty cells in this part of the file",
+                                "Fill them in, or pass --missing drop to leave those rows out"))
+    keep = ~miss
+    out = {r: v[keep] for r, v in vals.items()}
+    for role, what in (("weights", "a positive weight"), ("uncertainty", "a positive uncertainty")):
+        if role in out:
+            bad = np.flatnonzero(out[role] <= 0)
+            if bad.size:
+                row = int(np.flatnonzero(keep)[bad[0]] + offset + 2)
+                raise DataError(message(f"File '{fname}' column '{names[role]}' row {row}", what,
+                                        f"{out[role][bad[0]]:g}"))
+    w = out.get("weights")
+    if "uncertainty" in out:
+        w = 1.0 / out["uncertainty"] ** 2
+    return out["x"], out["y"], w, keep, out
+
+
+def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "refuse",
+              chunk_rows: int = 500_000) -> Scan:
+    """First read: validate, count, x range, fingerprints (see module docstring)."""
+    path = Path(path)
+    specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
+    digests = {r: hashlib.sha256() for r, s in specs.items() if s is not None}
+    n_read = n_used = 0
+    dropped = []
+    lo, hi = np.inf, -np.inf
+    names = {}
+    for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
+        xv, yv, w, keep, cols = _columns(names, offset, frame, decimal, path.name, missing)
+        n_read += len(frame)
+        n_used += xv.size
+        dropped.extend((np.flatnonzero(~keep) + offset + 2).tolist())
+        if xv.size:
+            lo, hi = min(lo, float(xv.min())), max(hi, float(xv.max()))
+        for role, h in digests.items():
+            h.update(np.ascontiguousarray(cols[role]).tobytes())
+    if n_read == 0:
+        raise DataError(message(f"File '{path.name}'", "data rows below the header", "a header only"))
+    if n_used == 0:
+        raise DataError(message(f"File '{path.name}'", "at least one complete row", "none"))
+    if not lo < hi:
+        raise DataError(message(f"File '{path.name}' column '{names['x']}'", "at least two distinct x values",
+                                f"only {lo!r}", "A curve cannot be fitted against a single x value"))
+    fh = hashlib.sha256()
+    with path.open("rb") as f:
+        for block in iter(lambda: f.read(1 << 20), b""):
+            fh.update(block)
+    wname = names.get("uncertainty", names.get("weights"))
+    return Scan(str(path), n_read, n_used, dropped, lo, hi, fh.hexdigest(), columns_digest(digests),
+                names["x"], names["y"], wname)
+
+
+def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
+               repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
+               missing: str = "refuse", chunk_rows: int = 500_000, progress=None) -> tuple[Surface, Scan]:
+    """``core.sweep`` over a file read in chunks; returns (surface, scan).
+
+    ``progress(rows_done, rows_total, seconds)`` is called after every chunk of the
+    statistics pass when given.
+    """
+    degrees = np.atleast_1d(np.asarray(degrees))
+    if degrees.size == 0:
+        raise ParameterError(message("Parameter 'degrees'", "at least one degree", "none"))
+    max_degree = max(check_degree(int(d)) for d in degrees)
+    sc = scan_file(path, x=x, y=y, weights=weights, uncertainty=uncertainty, missing=missing,
+                   chunk_rows=chunk_rows)
+    plan = make_plan(sc.rows_used, folds=folds, repeats=repeats, seed=seed, test_fraction=test_fraction)
+    labels = cell_labels(plan, max_degree)
+    acc = Accumulator(Domain.from_range(sc.x_min, sc.x_max), max_degree, plan.repeats * plan.k + 1)
+    specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
+    pos = 0
+    t0 = time.perf_counter()
+    for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
+        xv, yv, w, _, _ = _columns(names, offset, frame, decimal, Path(path).name, missing)
+        acc.update(xv, yv, w, labels[:, pos:pos + xv.size])
+        pos += xv.size
+        if progress is not None:
+            progress(pos, sc.rows_used, time.perf_counter() - t0)
+    if pos != sc.rows_used:
+        raise DataError(message(f"File '{Path(path).name}'", f"{sc.rows_used} rows on the second read",
+                                pos, "The file changed while it was being read"))
+    engine = Engine(acc.result(), plan, intercept)
+    return surface_from_engine(engine, degrees, lambdas), sc
