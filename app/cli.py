@@ -298,7 +298,7 @@ def _save_choice(args, t, s, out):
         data.update({"x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit})
         c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
                         weights=t.weights, weights_column=t.weight_column, notes=args.notes,
-                        version=core.__version__)
+                        version=core.__version__, group_column=t.group_column, fold_column=t.fold_column)
     c.save(args.save, force=args.force)
     print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
 

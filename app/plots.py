@@ -178,3 +178,67 @@ def learning_columns(lc) -> dict:
     return {"n": lc.n_train[ok], "cv": cv, "train": tr,
             "cv_lo": np.maximum(cv - cse, cv * 1e-3), "cv_hi": cv + cse,
             "tr_lo": np.maximum(tr - tse, tr * 1e-3), "tr_hi": tr + tse}
+
+
+class FigureSet:
+    """Every workbench figure and source, created once; ``update`` fills them from a state.
+
+    Shared by the page (``views.Workspace``) and the standalone report.
+    """
+
+    def __init__(self, x_label: str = "x", y_label: str = "y"):
+        self.fit_fig, self.fit_src = make_fit_figure(x_label, y_label)
+        (self.rx, self.ry, self.rh), self.res_src, self.res_lines = make_residual_figures(x_label, y_label)
+        (self.fd, self.fl, self.fh), self.cx_src, _ = make_complexity_figures()
+        self.lc_fig, self.lc_src = make_learning_figure()
+
+    def update_data(self, state) -> None:
+        """Parts that change only with new statistics: heat map, axis labels."""
+        import math
+
+        if state.surface is not None:
+            s = state.surface
+            self.cx_src["heat"].data = heat_columns(s)
+            recs = list(s.recommended.values())
+            self.cx_src["heat_rec"].data = {
+                "x": [math.log10(r.lam) if r.lam > 0 else math.log10(s.lambdas[1]) for r in recs],
+                "y": [r.degree for r in recs], "rule": [r.rule for r in recs]}
+        if state.table is not None:
+            self.fit_fig.xaxis.axis_label = self.rx.xaxis.axis_label = state.table.x.name
+            self.fit_fig.yaxis.axis_label = state.table.y.name
+            self.ry.xaxis.axis_label = "fitted " + state.table.y.name
+        self.lc_src.data = learning_columns(state.learning)
+
+    def update(self, state, show_sealed: bool) -> None:
+        """Everything that follows one change of degree or lambda."""
+        from .state import LOG_LAMBDA_OFF
+
+        out = state.out
+        if not out:
+            return
+        keep = ~out["test"]
+        self.fit_src["points"].data = {"x": out["x"][keep], "y": out["y"][keep]}
+        self.fit_src["sealed"].data = ({"x": out["x"][~keep], "y": out["y"][~keep]} if show_sealed
+                                       else {"x": [], "y": []})
+        self.fit_src["aside"].data = {"x": out["aside_x"][:4000], "y": out["aside_y"][:4000]}
+        self.fit_src["curve"].data = {"x": out["grid"], "y": out["curve"]}
+        self.fit_src["band"].data = band_columns(out)
+        res, hist, sd = residual_columns(out)
+        self.res_src["res"].data = res
+        self.res_src["hist"].data = hist
+        for up, dn in self.res_lines.values():
+            up.location, dn.location = 2 * sd, -2 * sd
+        deg, lam = complexity_columns(out)
+        self.cx_src["deg"].data = deg
+        self.cx_src["lam"].data = lam
+        self.cx_src["deg_now"].data = {"x": [out["degree"]], "y": [out["cv_mse"]]}
+        lam_x = out["lam"] if out["lam"] > 0 else 10 ** LOG_LAMBDA_OFF
+        self.cx_src["lam_now"].data = {"x": [lam_x], "y": [out["cv_mse"]]}
+        recs = list(state.surface.recommended.values())
+        near = [r for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)]
+        self.cx_src["deg_rec"].data = {"x": [r.degree for r in near], "y": [r.cv_mse for r in near],
+                                       "rule": [r.rule for r in near]}
+        here = [r for r in recs if r.degree == out["degree"]]
+        self.cx_src["lam_rec"].data = {"x": [max(r.lam, 10 ** LOG_LAMBDA_OFF) for r in here],
+                                       "y": [r.cv_mse for r in here], "rule": [r.rule for r in here]}
+        self.lc_src.data = learning_columns(state.learning)

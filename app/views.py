@@ -11,6 +11,7 @@ import numpy as np
 import panel as pn
 import param
 
+import core
 from core.errors import CurvewrightError
 from core.files import write_atomic
 
@@ -60,10 +61,9 @@ class Workspace(param.Parameterized):
         self.state = s = state
         xl = s.table.x.name if s.table else "x"
         yl = s.table.y.name if s.table else "y"
-        self.fit_fig, self.fit_src = plots.make_fit_figure(xl, yl)
-        (self.rx, self.ry, self.rh), self.res_src, self.res_lines = plots.make_residual_figures(xl, yl)
-        (self.fd, self.fl, self.fh), self.cx_src, _ = plots.make_complexity_figures()
-        self.lc_fig, self.lc_src = plots.make_learning_figure()
+        self.figs = f = plots.FigureSet(xl, yl)
+        self.fit_fig, self.rx, self.ry, self.rh = f.fit_fig, f.rx, f.ry, f.rh
+        self.fd, self.fl, self.fh, self.lc_fig = f.fd, f.fl, f.fh, f.lc_fig
         self.status = pn.pane.Alert("", alert_type="light", sizing_mode="stretch_width", name="status")
         self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
         self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
@@ -178,17 +178,7 @@ class Workspace(param.Parameterized):
             self._update_data_views()
 
     def _update_data_views(self):
-        s = self.state
-        if s.surface is not None:
-            self.cx_src["heat"].data = plots.heat_columns(s.surface)
-            recs = s.surface.recommended.values()
-            self.cx_src["heat_rec"].data = {"x": [math.log10(r.lam) if r.lam > 0 else math.log10(s.surface.lambdas[1])
-                                                  for r in recs], "y": [r.degree for r in recs],
-                                            "rule": [r.rule for r in recs]}
-        if s.table is not None:
-            self.fit_fig.xaxis.axis_label = self.rx.xaxis.axis_label = s.table.x.name
-            self.fit_fig.yaxis.axis_label = s.table.y.name
-        self.lc_src.data = plots.learning_columns(None)
+        self.figs.update_data(self.state)
         self.lc_text.object = "Press *Learning curve* to compute it for the current setting."
 
     def _on_version(self, *_):
@@ -199,41 +189,14 @@ class Workspace(param.Parameterized):
 
     def _update_views(self):
         s = self.state
-        out = s.out
-        if not out:
+        if not s.out:
             return
-        test_shown = s.surface is not None and s.surface.test_revealed
-        keep = ~out["test"]
-        self.fit_src["points"].data = {"x": out["x"][keep], "y": out["y"][keep]}
-        self.fit_src["sealed"].data = ({"x": out["x"][~keep], "y": out["y"][~keep]} if test_shown
-                                       else {"x": [], "y": []})
-        self.fit_src["aside"].data = {"x": out["aside_x"][:4000], "y": out["aside_y"][:4000]}
-        self.fit_src["curve"].data = {"x": out["grid"], "y": out["curve"]}
-        self.fit_src["band"].data = plots.band_columns(out)
-        res, hist, sd = plots.residual_columns(out)
-        self.res_src["res"].data = res
-        self.res_src["hist"].data = hist
-        for up, dn in self.res_lines.values():
-            up.location, dn.location = 2 * sd, -2 * sd
-        deg, lam = plots.complexity_columns(out)
-        self.cx_src["deg"].data = deg
-        self.cx_src["lam"].data = lam
-        self.cx_src["deg_now"].data = {"x": [out["degree"]], "y": [out["cv_mse"]]}
-        lam_x = out["lam"] if out["lam"] > 0 else 10 ** LOG_LAMBDA_OFF
-        self.cx_src["lam_now"].data = {"x": [lam_x], "y": [out["cv_mse"]]}
-        recs = list(s.surface.recommended.values())
-        self.cx_src["deg_rec"].data = {"x": [r.degree for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)],
-                                       "y": [r.cv_mse for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)],
-                                       "rule": [r.rule for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)]}
-        here = [r for r in recs if r.degree == out["degree"]]
-        self.cx_src["lam_rec"].data = {"x": [max(r.lam, 10 ** LOG_LAMBDA_OFF) for r in here],
-                                       "y": [r.cv_mse for r in here], "rule": [r.rule for r in here]}
+        self.figs.update(s, show_sealed=s.surface is not None and s.surface.test_revealed)
         if s.learning is not None:
-            self.lc_src.data = plots.learning_columns(s.learning)
             self.lc_text.object = (f"**Reading (guidance, not certainty):** "
-                                   f"{__import__('core').describe_learning_curve(s.learning)}  \n"
+                                   f"{core.describe_learning_curve(s.learning)}  \n"
                                    f"Computed for degree {s.learning.degree}, lambda {_fmt(s.learning.lam, 3)}.")
-        self.numbers.object = self._numbers_md(out)
+        self.numbers.object = self._numbers_md(s.out)
 
     def _numbers_md(self, out) -> str:
         s = self.state

@@ -164,7 +164,8 @@ class Choice:
 
 
 def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
-                weights_column=None, notes: str = "", version: str = "0.1.0") -> Choice:
+                weights_column=None, notes: str = "", version: str = "0.1.0",
+                group_column=None, fold_column=None) -> Choice:
     """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
 
     Refits on the sweep's training rows (the sealed rows stay out; with ``x=None``
@@ -188,7 +189,7 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
         rows, xr = int(x.size), [float(x.min()), float(x.max())]
     m, se, _ = eng.cv_summary(degree, [lam])
     info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
-            "sealed_test": surface.sealed.to_dict()}
+            "sealed_test": surface.sealed.to_dict(), "group_column": group_column, "fold_column": fold_column}
     data = {**data, "rows_used": rows, "x_range": xr}
     return build_choice(fit=f, surface_info=info, rule=rule,
                         cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
@@ -228,7 +229,9 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
                        "cv_mse_se": None if not np.isfinite(cv["cv_mse_se"]) else float(cv["cv_mse_se"]),
                        "train_mse": float(cv["train_mse"]), "effective_df": float(fit.effective_df),
                        "rule": rule, "recommendation": surface_info["recommendation"],
-                       "sealed_test": surface_info["sealed_test"]},
+                       "sealed_test": surface_info["sealed_test"],
+                       "group_column": surface_info.get("group_column"),
+                       "fold_column": surface_info.get("fold_column")},
         "notes": notes,
     }
     return Choice.from_dict(json.loads(json.dumps(doc)))

@@ -37,6 +37,20 @@ __all__ = ["Engine", "Surface", "Recommendation", "SealedTest", "sweep", "build_
            "surface_from_engine", "grid_choices"]
 
 
+def fold_mean_se(cv: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Mean over folds (axis 0) and its SE: std (ddof = 1) over sqrt(number of finite folds)."""
+    if np.isfinite(cv).all():
+        F = cv.shape[0]
+        se = cv.std(axis=0, ddof=1) / np.sqrt(F) if F > 1 else np.full(cv.shape[1], np.nan)
+        return cv.mean(axis=0), se
+    F = np.sum(np.isfinite(cv), axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        import warnings
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return np.nanmean(cv, axis=0), np.nanstd(cv, axis=0, ddof=1) / np.sqrt(F)
+
+
 def _fold_sums(blocks: np.ndarray) -> np.ndarray:
     """For blocks[0..k-1], the sum of all blocks but f, for every f (adds only)."""
     k = blocks.shape[0]
@@ -89,9 +103,10 @@ class Engine:
         self._batches: dict[int, FoldBatch] = {}
 
     def batch(self, degree: int) -> FoldBatch:
+        """Folds plus, last, the all-training-rows solver, factorized together for one degree."""
         b = self._batches.get(degree)
         if b is None:
-            b = self._batches[degree] = FoldBatch(self.solvers, degree)
+            b = self._batches[degree] = FoldBatch(self.solvers + [self.full], degree)
         return b
 
     @property
@@ -105,7 +120,7 @@ class Engine:
     def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
         """Held-out and training MSE per fold: two arrays of shape (n_folds, len(lams))."""
         lams = check_lambdas(lams)
-        theta = self.batch(check_degree(degree, self.max_degree)).coefficients(lams)
+        theta = self.batch(check_degree(degree, self.max_degree)).coefficients(lams)[:-1]
         with np.errstate(invalid="ignore", divide="ignore"):
             wh = self._held[:, 0, 0][:, None]
             cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
@@ -115,10 +130,8 @@ class Engine:
     def cv_summary(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(mean CV MSE, its SE, mean training MSE), each of shape (len(lams),)."""
         cv, tr = self.scores(degree, lams)
-        F = np.sum(np.isfinite(cv), axis=0)
-        mean = np.nanmean(cv, axis=0)
-        se = np.nanstd(cv, axis=0, ddof=1) / np.sqrt(F) if self.n_folds > 1 else np.full(mean.shape, np.nan)
-        return mean, se, np.nanmean(tr, axis=0)
+        mean, se = fold_mean_se(cv)
+        return mean, se, tr.mean(axis=0) if np.isfinite(tr).all() else np.nanmean(tr, axis=0)
 
     def curve(self, degree: int, lam: float) -> np.ndarray:
         """Legendre coefficients (raw y) of the fit on all training rows."""
@@ -127,7 +140,15 @@ class Engine:
         return theta
 
     def effective_df(self, degree: int, lams) -> np.ndarray:
-        return self.full.effective_df(degree, lams)
+        """df(lambda) on all training rows (ESL eq. 3.50, plus one for the intercept)."""
+        b = self.batch(check_degree(degree, self.max_degree))
+        if b.RiU is None or b.slow and b.slow[-1] == len(b.solvers) - 1:
+            return self.full.effective_df(degree, lams)
+        lams = check_lambdas(lams)
+        s2 = b.s2[-1]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            filt = np.where(s2 > 0, s2 / (s2 + lams[:, None]), 0.0)
+        return filt.sum(axis=1) + (1.0 if self.intercept else 0.0)
 
     def train_mse_all(self, degree: int, lams) -> np.ndarray:
         theta = self.full.coefficients(degree, lams)
@@ -377,10 +398,8 @@ def surface_from_engine(engine: Engine, degrees, lambdas) -> Surface:
     for i, d in enumerate(degrees):
         c, t = engine.scores(int(d), lams)
         fold[i] = c.T
-        F = np.sum(np.isfinite(c), axis=0)
-        cv[i] = np.nanmean(c, axis=0)
-        se[i] = np.nanstd(c, axis=0, ddof=1) / np.sqrt(F)
-        tr[i] = np.nanmean(t, axis=0)
+        cv[i], se[i] = fold_mean_se(c)
+        tr[i] = t.mean(axis=0) if np.isfinite(t).all() else np.nanmean(t, axis=0)
         edf[i] = engine.effective_df(int(d), lams)
     rec = _recommend(engine, degrees, lams, cv, se)
     sealed = SealedTest(engine.plan.test_fraction, engine.n_test)

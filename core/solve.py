@@ -396,6 +396,7 @@ class FoldBatch:
         self.degree = degree = check_degree(degree, solvers[0].D)
         self.intercept = solvers[0].intercept
         self.n = n = solvers[0]._dim(degree)
+        self.RiU = self.Uq = self.s2 = self.exact0 = None
         self.slow = [i for i, sv in enumerate(solvers) if sv.rank < n]
         for i in self.slow:
             solvers[i]._prepare(degree)      # warns once, caches the fallback

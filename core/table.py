@@ -51,6 +51,8 @@ class Table:
     file_sha256: str
     columns_sha256: str
     notices: tuple = ()
+    group_column: str | None = None
+    fold_column: str | None = None
 
     @property
     def n(self) -> int:
@@ -276,4 +278,5 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         w, wname,
         extra["group"][1][keep] if "group" in extra else None,
         extra["fold"][1][keep] if "fold" in extra else None,
-        int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices))
+        int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices),
+        extra["group"][0] if "group" in extra else None, extra["fold"][0] if "fold" in extra else None)
