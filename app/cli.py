@@ -146,6 +146,14 @@ def build_parser() -> argparse.ArgumentParser:
     ck.add_argument("--json")
     ck.add_argument("--force", action="store_true")
 
+    rp = sub.add_parser("report", help="write a standalone HTML report of a choice file")
+    rp.add_argument("choice")
+    rp.add_argument("data", help="the data file the curve was chosen on")
+    rp.add_argument("--out", default="report.html")
+    rp.add_argument("--images", help="also save every plot as an image into this folder")
+    rp.add_argument("--image-format", choices=["png", "svg"], default="png")
+    rp.add_argument("--force", action="store_true")
+
     o = sub.add_parser("open", help="start the workbench page on 127.0.0.1 and open it in the browser")
     o.add_argument("data", nargs="?", help="data file (default: a bundled invented sample set)")
     o.add_argument("--port", type=int, default=5006)
@@ -292,13 +300,16 @@ def _save_choice(args, t, s, out):
             "rows_dropped": list(map(int, t.rows_dropped))}
     if streamed:
         data.update({"x_column": t.x_name, "y_column": t.y_name, "x_unit": t.x_unit, "y_unit": t.y_unit})
+        kind = "uncertainty" if args.uncertainty else ("weights" if args.weights else None)
         c = make_choice(None, None, s, d, lam, rule=rule_of(s, d, lam), data=data,
-                        weights_column=t.weight_name, notes=args.notes, version=core.__version__)
+                        weights_column=t.weight_name, notes=args.notes, version=core.__version__,
+                        weights_kind=kind)
     else:
         data.update({"x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit})
         c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
                         weights=t.weights, weights_column=t.weight_column, notes=args.notes,
-                        version=core.__version__, group_column=t.group_column, fold_column=t.fold_column)
+                        version=core.__version__, group_column=t.group_column, fold_column=t.fold_column,
+                        weights_kind=t.weight_kind)
     c.save(args.save, force=args.force)
     print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
 
@@ -377,6 +388,19 @@ def cmd_check(args, out):
     return 0
 
 
+def cmd_report(args, out):
+    from .report import write_report
+
+    path = write_report(args.choice, args.data, args.out, force=args.force)
+    print(f"wrote {path}", file=out)
+    if args.images:
+        from .export import export_images
+
+        files = export_images(path, args.images, args.image_format, force=args.force)
+        print(f"wrote {len(files)} {args.image_format.upper()} images to {args.images}", file=out)
+    return 0
+
+
 def cmd_learn(args, out):
     t = _read(args)
     sizes = parse_grid(args.sizes, log=False, option="--sizes")
@@ -395,7 +419,7 @@ def cmd_learn(args, out):
 
 
 COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn, "open": cmd_open,
-            "schema": cmd_schema, "apply": cmd_apply, "check": cmd_check}
+            "schema": cmd_schema, "apply": cmd_apply, "check": cmd_check, "report": cmd_report}
 
 
 def main(argv=None, out=None) -> int:

@@ -46,6 +46,10 @@ class Workbench(param.Parameterized):
     x_column = param.String("")
     y_column = param.String("")
     weight_column = param.String("")
+    weight_kind = param.Selector(default="weights", objects=["weights", "uncertainty"],
+                                 doc="the weight column holds weights, or standard uncertainties (w = 1/u^2)")
+    group_column = param.String("", doc="rows sharing a value stay in one fold")
+    repeats = param.Integer(1, bounds=(1, 20))
     status = param.String("")
     busy = param.Boolean(False)
     version = param.Integer(0, doc="bumped after every recompute; views watch it")
@@ -73,7 +77,7 @@ class Workbench(param.Parameterized):
             x = self.x_column if self.x_column in frame_cols else frame_cols[0]
             y = self.y_column if self.y_column in frame_cols and self.y_column != x else \
                 next(c for c in frame_cols if c != x)
-            table = read_table(path, x=x, y=y, weights=self.weight_column or None, missing="drop")
+            table = self._read(path, x, y, self.weight_column)
         except CurvewrightError as exc:
             self.status = f"Could not load {name or Path(path).name}: {exc}"
             return False
@@ -99,9 +103,16 @@ class Workbench(param.Parameterized):
         frame, _, _ = _read_frame(Path(path))
         return [str(c) for c in frame.columns]
 
+    def _read(self, path, x, y, weights):
+        kind = {"weights": None, "uncertainty": None}
+        if weights:
+            kind[self.weight_kind] = weights
+        return read_table(path, x=x, y=y, weights=kind["weights"], uncertainty=kind["uncertainty"],
+                          group=self.group_column or None, missing="drop")
+
     def select_columns(self, x: str, y: str, weights: str = "") -> bool:
         try:
-            table = read_table(self._source_path, x=x, y=y, weights=weights or None, missing="drop")
+            table = self._read(self._source_path, x, y, weights)
         except CurvewrightError as exc:
             self.status = f"Could not use those columns: {exc}"
             return False
@@ -119,7 +130,7 @@ class Workbench(param.Parameterized):
         self.rebuild()
 
     # ---- statistics ----------------------------------------------------------
-    @param.depends("folds", "seed", "test_fraction", "train_fraction", watch=True)
+    @param.depends("folds", "seed", "test_fraction", "train_fraction", "repeats", watch=True)
     def rebuild(self) -> None:
         """New statistics (data, folds, seed, sealed or training fraction changed)."""
         if self.table is None:
@@ -143,7 +154,8 @@ class Workbench(param.Parameterized):
                     try:
                         engine = core.build_engine(x[keep], y[keep], max_degree=D, folds=folds, seed=self.seed,
                                                    weights=None if w is None else w[keep],
-                                                   test_fraction=self.test_fraction)
+                                                   groups=None if t.groups is None else t.groups[keep],
+                                                   repeats=self.repeats, test_fraction=self.test_fraction)
                         break
                     except core.DataError as exc:
                         last = exc
@@ -277,4 +289,5 @@ class Workbench(param.Parameterized):
                 "x_unit": t.x.unit, "y_unit": t.y.unit}
         return make_choice(self._x, self._y, self.surface, d, lam, rule=rule_of(self.surface, d, lam),
                            data=data, weights=w, weights_column=t.weight_column, notes=notes,
-                           version=core.__version__)
+                           version=core.__version__, group_column=t.group_column,
+                           weights_kind=t.weight_kind)

@@ -18,33 +18,7 @@ from core.files import write_atomic
 from . import plots
 from .state import LOG_LAMBDA_OFF, Workbench
 
-CAUTION = ("**Caution.** A fitted curve can feed safety-relevant decisions (instrument calibration, "
-           "structural loads, dosing). This workbench supports engineering judgement; it does not replace it. "
-           "Local codes, standards and licensed professional practice govern any such use.")
-
-HELP = """
-**Bias and variance.** A stiff curve (low degree, large lambda) cannot follow the trend: its
-errors are systematic (*bias*). A very flexible curve follows the noise of this particular sample:
-refit on other rows it would look different (*variance*). Both predict new measurements badly.
-
-**Lambda** adds a price for large coefficients on the standardized powers of x. Raising it
-pulls the curve towards a smoother, flatter shape and lowers its effective degrees of freedom;
-lambda = 0 is ordinary least squares. The grey lines on the curve plot are refits on each
-fold's training rows: when they fan out, variance is high.
-
-**Cross-validation** splits the rows into k folds, fits on k-1 of them and scores the one left
-out, k times. The CV error estimates how well the curve predicts rows it has not seen; the
-training error always looks better.
-
-**The two suggestions.** *Lowest CV error* takes the best score on the grid. *Simplest within
-one standard error* takes the lowest degree, then the largest lambda, whose CV error is within
-one standard error of that best score: a curve that is statistically as good and less likely to
-chase noise (a published rule of thumb, Breiman et al. 1984).
-
-**The sealed test set** is put aside before any cross-validation. Look at it once, after
-choosing: if you keep tuning after seeing it, it stops being an honest check. The export records
-whether and when it was revealed.
-"""
+from .text import CAUTION, HELP  # noqa: E402
 
 
 def _fmt(v, digits=5):
@@ -114,6 +88,9 @@ class Workspace(param.Parameterized):
         self.download = pn.widgets.FileDownload(callback=self._export, filename="curve_choice.json",
                                                 label="Export choice (JSON)", color="success",
                                                 sizing_mode="stretch_width")
+        self.report = pn.widgets.FileDownload(callback=self._report, filename="curve_report.html",
+                                              label="Download report (HTML)", color="default",
+                                              sizing_mode="stretch_width")
         self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default")
         self.save_beside.on_click(self._save_beside)
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
@@ -153,6 +130,18 @@ class Workspace(param.Parameterized):
             self.state.status = f"Export failed: {exc}"
             return io.StringIO(json.dumps({"error": str(exc)}))
         self.state.status = "Choice exported (downloaded as curve_choice.json)."
+        return io.StringIO(text)
+
+    def _report(self):
+        from .report import report_in_subprocess
+
+        s = self.state
+        try:
+            text = report_in_subprocess(s.choice(self.notes.value or "").to_json(), s._source_path)
+        except CurvewrightError as exc:
+            s.status = f"Export failed: {exc}"
+            return io.StringIO(f"<p>Report not built: {exc}</p>")
+        s.status = "Report downloaded (curve_report.html)."
         return io.StringIO(text)
 
     def _save_beside(self, _):
@@ -234,7 +223,7 @@ class Workspace(param.Parameterized):
             pn.pane.Markdown("#### Validation"), self.frac, pn.Row(self.folds, self.seed), self.test,
             pn.Row(self.rec_min), pn.Row(self.rec_1se), self.lc_button,
             pn.pane.Markdown("#### Sealed test and export"), self.reveal, self.confirm, self.confirm_btn,
-            self.notes, self.download, self.save_beside,
+            self.notes, self.download, self.report, self.save_beside,
             width=330, sizing_mode="fixed", styles={"background": "#f4f1ea", "padding": "6px"},
         )
         curve_tab = pn.Column(pn.Row(self.fit_fig, sizing_mode="stretch_width"),

@@ -165,7 +165,7 @@ class Choice:
 
 def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
                 weights_column=None, notes: str = "", version: str = "0.1.0",
-                group_column=None, fold_column=None) -> Choice:
+                group_column=None, fold_column=None, weights_kind=None) -> Choice:
     """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
 
     Refits on the sweep's training rows (the sealed rows stay out; with ``x=None``
@@ -193,7 +193,8 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
     data = {**data, "rows_used": rows, "x_range": xr}
     return build_choice(fit=f, surface_info=info, rule=rule,
                         cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
-                        data=data, notes=notes, weights_column=weights_column, version=version)
+                        data=data, notes=notes, weights_column=weights_column, version=version,
+                        weights_kind=weights_kind)
 
 
 def rule_of(surface, degree: int, lam: float) -> str:
@@ -205,7 +206,7 @@ def rule_of(surface, degree: int, lam: float) -> str:
 
 
 def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, notes: str = "",
-                 weights_column=None, version: str = "0.1.0") -> Choice:
+                 weights_column=None, version: str = "0.1.0", weights_kind=None) -> Choice:
     """Assemble and validate a choice document from a FitResult and validation numbers.
 
     ``cv`` holds cv_mse, cv_mse_se, train_mse; ``surface_info`` the fold scheme
@@ -217,7 +218,8 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
         "software": {"name": "curvewright", "version": version},
         "data": data,
         "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": "ridge", "intercept": fit.intercept,
-                  "weights_column": weights_column, "domain": fit.domain.to_dict(),
+                  "weights_column": weights_column,
+                  "weights_kind": weights_kind if weights_column else None, "domain": fit.domain.to_dict(),
                   "legendre_coefficients": [float(v) for v in fit.legendre],
                   "power_coefficients": fit.power_table(),
                   "interval": None if fit.legendre_cov is None else {

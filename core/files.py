@@ -34,7 +34,10 @@ def write_atomic(path, data: str | bytes, *, force: bool = False) -> Path:
         raise FileExistsRefused(message(f"Output folder '{folder}'", "an existing folder", "none"))
     mode = "wb" if isinstance(data, bytes) else "w"
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    umask = os.umask(0)
+    os.umask(umask)
     try:
+        os.chmod(tmp, 0o666 & ~umask)   # an ordinary file's mode, not mkstemp's private 0600
         with os.fdopen(fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": "\n"})) as fh:
             fh.write(data)
             fh.flush()

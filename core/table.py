@@ -53,6 +53,8 @@ class Table:
     notices: tuple = ()
     group_column: str | None = None
     fold_column: str | None = None
+    weight_kind: str | None = None
+
 
     @property
     def n(self) -> int:
@@ -279,4 +281,5 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         extra["group"][1][keep] if "group" in extra else None,
         extra["fold"][1][keep] if "fold" in extra else None,
         int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices),
-        extra["group"][0] if "group" in extra else None, extra["fold"][0] if "fold" in extra else None)
+        extra["group"][0] if "group" in extra else None, extra["fold"][0] if "fold" in extra else None,
+        "uncertainty" if "uncertainty" in numeric else ("weights" if "weights" in numeric else None))

@@ -139,3 +139,14 @@ def test_two_pages_are_independent(workbench, context, app_url):
     time.sleep(0.8)
     assert slider(second, 0).get_attribute("aria-valuenow") == "3.0"
     np.testing.assert_array_equal(curve(second), before2)
+
+
+def test_report_button_downloads_standalone_html(workbench, tmp_path):
+    page = workbench
+    with page.expect_download(timeout=60000) as d:
+        page.get_by_text("Download report (HTML)").click()
+    path = tmp_path / "report.html"
+    d.value.save_as(path)
+    text = path.read_text()
+    assert text.startswith("<!DOCTYPE html>") and "Curve report" in text
+    assert "static/extensions/panel" not in text     # no page-server resources: opens offline

@@ -1,0 +1,224 @@
+"""One standalone HTML file defending a chosen curve: plots, numbers, audit trail.
+
+The report re-derives every plot from the data and the choice file's settings
+(same columns, folds, seed and sealed fraction), checks that the recomputed
+cross-validation error equals the file's, and prints the file's own numbers.
+Bokeh's JavaScript is inlined, so the file opens offline.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from pathlib import Path
+
+import numpy as np
+from bokeh.embed import components
+from bokeh.layouts import column, row
+from bokeh.resources import INLINE
+
+import core
+from core.choice import Choice
+from core.errors import DataError, message
+from core.influence import influence
+
+from . import plots
+from .state import LOG_LAMBDA_OFF, Workbench
+from .text import CAUTION
+
+STYLE = ("font-family: system-ui, sans-serif; color: #14213d; max-width: 1100px; line-height: 1.45;")
+
+
+def _f(v, digits=6):
+    if v is None or (isinstance(v, float) and not math.isfinite(v)):
+        return "–"
+    return f"{v:.{digits}g}"
+
+
+def _state_for(choice: Choice, data_path) -> Workbench:
+    doc = choice.doc
+    d, m, v = doc["data"], doc["model"], doc["validation"]
+    if v["scheme"] == "explicit":
+        raise DataError(message("Choice file field 'validation/scheme'", "kfold or group for a report",
+                                "'explicit'", "Explicit fold columns are not re-read by the report yet"))
+    wb = Workbench(folds=v["k"], seed=v["seed"], test_fraction=v["sealed_test"]["fraction"],
+                   repeats=v["repeats"], x_column=d["x_column"], y_column=d["y_column"],
+                   weight_column=m["weights_column"] or "", weight_kind=m.get("weights_kind") or "weights",
+                   group_column=v.get("group_column") or "")
+    if not wb.load_path(data_path):
+        raise DataError(wb.status)
+    if wb.table.columns_sha256 != d["columns_sha256"]:
+        raise DataError(message("Choice file field 'data/columns_sha256'",
+                                f"the fingerprint of the selected columns of '{Path(data_path).name}'",
+                                "a different one", "Give the data file the curve was chosen on"))
+    lam = m["lambda"]
+    wb.degree = m["degree"]
+    wb.log_lambda = LOG_LAMBDA_OFF if lam == 0 else math.log10(lam)
+    if lam != 0:
+        wb.out  # refresh already ran through the watchers
+    cv = wb.out["cv_mse"]
+    if not math.isclose(cv, v["cv_mse"], rel_tol=1e-7):
+        raise DataError(message("Choice file field 'validation/cv_mse'",
+                                f"the value recomputed from the data and fold settings ({cv:.12g})",
+                                f"{v['cv_mse']:.12g}", "The file was edited or made from other settings"))
+    wb.compute_learning_curve()
+    return wb
+
+
+def _notices(choice: Choice, wb: Workbench, infl) -> list[str]:
+    doc = choice.doc
+    out = []
+    lo, hi = doc["data"]["x_range"]
+    g = wb.out["grid"]
+    if g.min() < lo or g.max() > hi:
+        out.append(f"The curve is drawn from {g.min():.4g} to {g.max():.4g}, a little beyond the fitted x range "
+                   f"[{lo:.4g}, {hi:.4g}]: outside that range it is an extrapolation and should not be relied on.")
+    for name, rec in doc["validation"]["recommendation"].items():
+        if rec["degree_at_edge"]:
+            out.append(f"The {name} recommendation's degree ({rec['degree']}) is the top of the searched range: "
+                       "a wider degree search might choose differently.")
+        if rec["lambda_at_edge"]:
+            out.append(f"The {name} recommendation's lambda lies at the edge of the lambda grid: widen the grid.")
+    if infl is not None and infl.flagged.size:
+        out.append(f"{infl.flagged.size} row(s) have a large influence on the curve (Cook's distance above 4/n, "
+                   f"common practice): rows at x = " + ", ".join(f"{v:.4g}" for v in wb._x[~wb._test][infl.flagged][:8])
+                   + ". Check them for recording errors before trusting the curve.")
+    if doc["validation"]["sealed_test"]["revealed"] is False and doc["validation"]["sealed_test"]["n"]:
+        out.append("The sealed test set was not looked at before this choice was exported: its error is not "
+                   "part of this report.")
+    return out
+
+
+def build_report(choice: Choice, data_path) -> str:
+    """The report as an HTML string (see module docstring)."""
+    wb = _state_for(choice, data_path)
+    doc = choice.doc
+    m, v, d = doc["model"], doc["validation"], doc["data"]
+    figs = plots.FigureSet(d["x_column"], d["y_column"])
+    figs.update_data(wb)
+    figs.update(wb, show_sealed=True)
+    infl = None
+    if m["lambda"] == 0:
+        x_tr, y_tr = wb._x[~wb._test], wb._y[~wb._test]
+        w = None if wb.table.weights is None else wb.table.weights[wb._keep][~wb._test]
+        fit = core.fit(x_tr, y_tr, m["degree"], 0.0, weights=w, intercept=m["intercept"])
+        infl = influence(fit, x_tr, y_tr, w)
+
+    cv_rmse, se = v["cv_rmse"], v["cv_mse_se"]
+    se_rmse = se / (2 * cv_rmse) if se is not None and cv_rmse > 0 else None
+    st = v["sealed_test"]
+    coef_rows = "".join(f"<tr><td>{html.escape(c['term'])}</td><td data-field='coef'>{c['estimate']:.12g}</td>"
+                        f"<td>{_f(c['std_error'], 6)}</td></tr>" for c in m["power_coefficients"])
+    leg_rows = "".join(f"<tr><td>P<sub>{j}</sub>(t)</td><td>{c:.15g}</td></tr>"
+                       for j, c in enumerate(m["legendre_coefficients"]))
+    width_html = ""
+    if choice.has_interval:
+        xs = np.linspace(*d["x_range"], 7)
+        _, lo, hi = choice.predict(xs, interval="prediction")
+        width_html = ("<h3>How wide is the uncertainty?</h3><p>Width of the 95% prediction interval "
+                      "(where a new single measurement is expected to fall) across the fitted range:</p>"
+                      "<table><tr><th>x</th>" + "".join(f"<td>{a:.4g}</td>" for a in xs) + "</tr><tr><th>width</th>"
+                      + "".join(f"<td>{b:.4g}</td>" for b in hi - lo) + "</tr></table>")
+    else:
+        width_html = ("<p>No prediction interval is reported: the curve was chosen with lambda &gt; 0, where the "
+                      "classical interval does not apply.</p>")
+    sealed_html = (f"Sealed test RMSE <b data-field='test_rmse'>{_f(st['rmse'])}</b> on {st['n']} rows, revealed "
+                   f"{html.escape(str(st['revealed_at']))} for degree {st['degree']}, lambda {_f(st['lambda'], 4)}."
+                   if st["revealed"] else
+                   f"Sealed test set: {st['n']} rows set aside; not revealed before export.")
+    notices = _notices(choice, wb, infl)
+    reading = core.describe_learning_curve(wb.learning) if wb.learning is not None else ""
+    units = f" {d['y_unit']}" if d["y_unit"] else ""
+    head = f"""
+<h1>Curve report: {html.escape(d['y_column'])} against {html.escape(d['x_column'])}</h1>
+<div style="background:#fff4d6;border:1px solid #e0b84c;padding:8px 12px;">{CAUTION.replace('**', '')}</div>
+<h2>In plain words</h2>
+<p>The chosen curve is a polynomial of degree <b data-field="degree">{m['degree']}</b> with penalty
+lambda = <b data-field="lambda">{m["lambda"]!r}</b> (rule: {html.escape(v['rule'])}). When it predicts rows it was
+not fitted on, its typical error is about <b data-field="cv_rmse">{cv_rmse:.10g}</b>{html.escape(units)}
+(cross-validated RMSE, give or take {_f(se_rmse, 2)}), against {math.sqrt(v['train_mse']):.6g} on the rows it was fitted
+to. A much smaller training error than cross-validated error would mean the curve follows noise; here the ratio is
+{cv_rmse / max(math.sqrt(v['train_mse']), 1e-300):.3g}. The curve uses about {v['effective_df']:.3g} effective
+parameters. {html.escape(reading)}</p>
+<p>{sealed_html}</p>
+<h2>Things to look at</h2>
+<ul>{''.join(f'<li>{html.escape(n)}</li>' for n in notices) or '<li>Nothing unusual was noticed.</li>'}</ul>
+"""
+    tables = f"""
+<h2>Coefficients</h2>
+<p>Raw-x power form: y = a0 + a1 x + ... (standard errors at lambda = 0 only).</p>
+<table border="1" cellpadding="4" style="border-collapse:collapse"><tr><th>term</th><th>estimate</th><th>std. error</th></tr>{coef_rows}</table>
+<p>Stable form used for every prediction: y = sum c<sub>j</sub> P<sub>j</sub>(t), t = (x - {m['domain']['center']!r}) / {m['domain']['half_width']!r}.</p>
+<table border="1" cellpadding="4" style="border-collapse:collapse">{leg_rows}</table>
+{width_html}
+<h2>Validation</h2>
+<ul><li>Folds: {html.escape(v['scheme'])}, k = {v['k']}, repeats = {v['repeats']}, seed = {v['seed']}</li>
+<li>CV MSE {v['cv_mse']:.10g} (SE {_f(se, 4)}), training MSE {v['train_mse']:.10g}, effective df {v['effective_df']:.6g}</li>
+<li>Suggestions: """ + "; ".join(f"{k}: degree {r['degree']}, lambda {r['lambda']:.4g}" for k, r in v["recommendation"].items()) + f"""</li></ul>
+<h2>Audit trail</h2>
+<ul><li>Data file: {html.escape(str(d['file']))}; {d['rows_used']} rows used, {len(d['rows_dropped'])} dropped</li>
+<li>File SHA-256: <code>{d['file_sha256']}</code></li><li>Columns SHA-256: <code>{d['columns_sha256']}</code></li>
+<li>Choice written {html.escape(doc['created'])} by curvewright {html.escape(doc['software']['version'])};
+report by curvewright {core.__version__}</li>
+<li>Notes: {html.escape(doc['notes']) or '–'}</li></ul>
+"""
+    for f in (figs.fit_fig, figs.rx, figs.ry, figs.rh, figs.fd, figs.fl, figs.fh, figs.lc_fig):
+        f.output_backend = "canvas"
+    layout = column(figs.fit_fig, row(figs.rx, figs.ry, sizing_mode="stretch_width"), figs.rh,
+                    row(figs.fd, figs.fl, sizing_mode="stretch_width"), figs.fh, figs.lc_fig,
+                    sizing_mode="stretch_width")
+    script, div = components(layout)
+    title = html.escape(f"curvewright report: {d['y_column']} against {d['x_column']}")
+    return f"""<!DOCTYPE html>
+<html lang="en"><head><meta charset="utf-8"><title>{title}</title>
+{INLINE.render()}
+{script}
+</head><body style="{STYLE} margin: 16px auto; padding: 0 12px;">
+{head}
+<h2>Plots</h2>
+<p>Rows in the fit (teal), sealed test rows (purple diamonds), the curve (dark) and refits on each fold's
+training rows (grey); residuals with +/- 2 residual SD; cross-validated and training error against degree and
+lambda, with the current choice circled and the suggestions starred; the learning curve.</p>
+{div}
+{tables}
+</body></html>
+"""
+
+
+def write_report(choice_path, data_path, out, *, force: bool = False) -> Path:
+    """Build the report and write it atomically (refusing to overwrite unless ``force``).
+
+    Where panel is imported (it registers browser extensions with Bokeh that a
+    standalone file could not load offline) the report is built in a fresh
+    interpreter instead (``report_in_subprocess``).
+    """
+    from core.files import write_atomic
+
+    choice = Choice.load(choice_path)
+    if Path(out).exists() and not force:
+        write_atomic(out, "", force=False)          # raises the standard refusal
+    if "panel" in __import__("sys").modules:         # panel's extensions would leak in: build elsewhere
+        text = report_in_subprocess(choice.to_json(), data_path)
+    else:
+        text = build_report(choice, data_path)
+    return write_atomic(out, text, force=force)
+
+
+def report_in_subprocess(choice_json: str, data_path) -> str:
+    """Build the report in a fresh interpreter (for the page, where panel is loaded); returns HTML.
+
+    Raises DataError with the child's message when the choice or data are refused.
+    """
+    import subprocess
+    import sys
+    import tempfile
+
+    with tempfile.TemporaryDirectory() as tmp:
+        cfile = Path(tmp) / "choice.json"
+        cfile.write_text(choice_json, encoding="utf-8")
+        out = Path(tmp) / "report.html"
+        p = subprocess.run([sys.executable, "-m", "app.cli", "report", str(cfile), str(data_path), "--out", str(out)],
+                           capture_output=True, text=True, cwd=Path(__file__).resolve().parents[1])
+        if p.returncode != 0:
+            raise DataError(p.stderr.strip().removeprefix("error: ") or "The report could not be built.")
+        return out.read_text(encoding="utf-8")

@@ -1,0 +1,71 @@
+"""The standalone report: numbers equal the choice file's; tampered or mismatched inputs refused."""
+
+import json
+import re
+from pathlib import Path
+
+import pytest
+
+from app.cli import main
+
+ROOT = Path(__file__).resolve().parents[2]
+DATA = ROOT / "sample_sets" / "furnace_yield.csv"
+
+
+@pytest.fixture(scope="module")
+def made(tmp_path_factory):
+    d = tmp_path_factory.mktemp("rep")
+    choice = d / "c.json"
+    assert main(["sweep", str(DATA), "--x", "1", "--y", "2", "--degrees", "0-8", "--with-zero", "--folds", "5",
+                 "--test-fraction", "0.2", "--save", str(choice), "--pick-degree", "2", "--pick-lambda", "0"]) == 0
+    out = d / "r.html"
+    assert main(["report", str(choice), str(DATA), "--out", str(out)]) == 0
+    return d, choice, out
+
+
+def field(html, name):
+    return re.findall(rf"data-field=['\"]{name}['\"]>([^<]+)<", html)
+
+
+def test_report_numbers_equal_the_choice(made):
+    _, choice, out = made
+    doc = json.loads(choice.read_text())
+    html = out.read_text()
+    assert int(field(html, "degree")[0]) == doc["model"]["degree"]
+    assert float(field(html, "lambda")[0]) == doc["model"]["lambda"]
+    assert float(field(html, "cv_rmse")[0]) == pytest.approx(doc["validation"]["cv_rmse"], rel=1e-9)
+    coefs = [float(v) for v in field(html, "coef")]
+    assert coefs == pytest.approx([c["estimate"] for c in doc["model"]["power_coefficients"]], rel=1e-11)
+    assert doc["data"]["columns_sha256"] in html and "Local codes, standards" in html
+    assert "prediction interval" in html
+    assert "https://cdn" not in re.sub(r"<script[^>]*>.*?</script>", "", html, flags=re.S)  # JS inlined
+
+
+def test_tampered_choice_is_refused_with_the_field(made, tmp_path, capsys):
+    _, choice, _ = made
+    doc = json.loads(choice.read_text())
+    doc["validation"]["cv_mse"] *= 0.5
+    doc["validation"]["cv_rmse"] = doc["validation"]["cv_mse"] ** 0.5
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(doc))
+    assert main(["report", str(bad), str(DATA), "--out", str(tmp_path / "r.html")]) == 2
+    assert "Choice file field 'validation/cv_mse'" in capsys.readouterr().err
+    doc["model"]["degree"] = "two"
+    bad.write_text(json.dumps(doc))
+    assert main(["report", str(bad), str(DATA), "--out", str(tmp_path / "r.html")]) == 2
+    assert "Choice file field 'model/degree'" in capsys.readouterr().err
+    assert not (tmp_path / "r.html").exists()
+
+
+def test_other_data_is_refused(made, tmp_path, capsys):
+    _, choice, _ = made
+    other = tmp_path / "other.csv"
+    other.write_text(DATA.read_text().replace("51.06", "52.06"))
+    assert main(["report", str(choice), str(other), "--out", str(tmp_path / "r.html")]) == 2
+    assert "Choice file field 'data/columns_sha256'" in capsys.readouterr().err
+
+
+def test_report_refuses_to_overwrite(made, capsys):
+    d, choice, out = made
+    assert main(["report", str(choice), str(DATA), "--out", str(out)]) == 2
+    assert "pass --force to overwrite" in capsys.readouterr().err
