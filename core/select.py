@@ -117,15 +117,21 @@ class Engine:
     def domain(self) -> Domain:
         return self.moments.domain
 
-    def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
-        """Held-out and training MSE per fold: two arrays of shape (n_folds, len(lams))."""
+    def scores(self, degree: int, lams, *, train: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
+        """Held-out and training MSE per fold: two arrays of shape (n_folds, len(lams))
+        (the second is None with ``train=False``)."""
         lams = check_lambdas(lams)
         theta = self.batch(check_degree(degree, self.max_degree)).coefficients(lams)[:-1]
         with np.errstate(invalid="ignore", divide="ignore"):
             wh = self._held[:, 0, 0][:, None]
             cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
-            tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None]
+            tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None] if train else None
         return cv, tr
+
+    def cv_mean(self, degree: int, lam: float) -> float:
+        """Mean CV MSE of one configuration (the refinement's objective)."""
+        cv, _ = self.scores(degree, [lam], train=False)
+        return float(fold_mean_se(cv)[0][0])
 
     def cv_summary(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(mean CV MSE, its SE, mean training MSE), each of shape (len(lams),)."""
@@ -321,7 +327,7 @@ def _refine_min(engine: Engine, degree: int, lams: np.ndarray, i: int, best: flo
         lo = lams[i] / 10.0
 
     def obj(u):
-        return float(engine.cv_summary(degree, [math.exp(u)])[0][0])
+        return engine.cv_mean(degree, math.exp(u))
 
     res = minimize_scalar(obj, bounds=(math.log(lo), math.log(hi)), method="bounded",
                           options={"xatol": 1e-2})
@@ -336,7 +342,7 @@ def _refine_1se(engine: Engine, degree: int, lams: np.ndarray, i: int, thr: floa
         return float(lams[i])
 
     def g(u):
-        return float(engine.cv_summary(degree, [math.exp(u)])[0][0]) - thr
+        return engine.cv_mean(degree, math.exp(u)) - thr
 
     a, b = math.log(lams[i]), math.log(lams[i + 1])
     if not (g(a) <= 0 < g(b)):

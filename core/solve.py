@@ -423,8 +423,9 @@ class FoldBatch:
         self.ycw = np.array([sv._ycw for sv in solvers])
 
     def coefficients(self, lams: np.ndarray) -> np.ndarray:
-        """Legendre coefficients in working coordinates, shape (folds, len(lams), degree + 1)."""
-        lams = check_lambdas(lams)
+        """Legendre coefficients in working coordinates, shape (folds, len(lams), degree + 1).
+
+        ``lams`` must already be a validated float array (``check_lambdas``)."""
         F, d = len(self.solvers), self.degree
         out = np.zeros((F, lams.size, d + 1))
         if d == 0 or self.n == 0:
