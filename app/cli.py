@@ -104,6 +104,10 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--stream", action="store_true",
                    help="read the file in chunks (automatic above 100 MB; CSV/TSV/Parquet)")
     s.add_argument("--chunk-rows", type=int, default=500_000, help="rows per chunk when streaming")
+    s.add_argument("--engine", choices=["local", "dask"],
+                   help="partition-independent engine (hashed folds) over a file, folder or glob")
+    s.add_argument("--scheduler", help="Dask scheduler address (default: a LocalCluster on 127.0.0.1)")
+    s.add_argument("--save-stats", help="write the sufficient statistics (JSON) for `curvewright open --stats`")
     s.add_argument("--json", help="write the surface as JSON here")
     s.add_argument("--save", help="write the choice file (JSON) for the recommended or picked curve")
     s.add_argument("--rule", choices=["1se", "min"], default="1se", help="recommendation saved by --save")
@@ -159,13 +163,14 @@ def build_parser() -> argparse.ArgumentParser:
     o.add_argument("--port", type=int, default=5006)
     o.add_argument("--address", default="127.0.0.1", help="interface to listen on (default 127.0.0.1)")
     o.add_argument("--no-browser", action="store_true", help="do not open a browser window")
+    o.add_argument("--stats", help="explore a statistics file from `sweep --save-stats` instead of rows")
     return p
 
 
 def cmd_open(args, out):
     from .serve import serve
     print(f"curvewright: serving on http://{args.address}:{args.port}/ (Ctrl-C to stop)", file=out)
-    serve(args.data, port=args.port, show=not args.no_browser, address=args.address)
+    serve(args.data, port=args.port, show=not args.no_browser, address=args.address, stats=args.stats)
     return 0
 
 
@@ -243,6 +248,37 @@ def _sweep_streamed(args, degrees, lams):
     return s, sc
 
 
+class _Info:
+    """The streamed engines' data description, shaped like a Scan for the printing code."""
+
+    def __init__(self, info):
+        self.rows_used = info["rows_used"]
+        self.rows_dropped = info["rows_dropped"]
+        self.path = info["files"][0] if len(info["files"]) == 1 else args_join(info["files"])
+        self.file_sha256, self.columns_sha256 = info["file_sha256"], info["columns_sha256"]
+        self.x_name, self.y_name, self.weight_name = info["x_name"], info["y_name"], info["weight_name"]
+        from core.table import unit_of
+        self.x_unit, self.y_unit = unit_of(self.x_name), unit_of(self.y_name)
+
+
+def args_join(files):
+    return f"{len(files)} files ({Path(files[0]).name} ... {Path(files[-1]).name})"
+
+
+def _sweep_engine(args, degrees, lams):
+    from core.distributed import expand_paths, sweep_files
+
+    if args.group or args.fold_column:
+        raise ParameterError(message("Option --engine", "hashed k-fold folds (no --group or --fold-column)",
+                                     "a group or fold column", "Read a single file whole for grouped folds"))
+    s, info = sweep_files(expand_paths(args.data), degrees, lams, x=args.x, y=args.y, weights=args.weights,
+                          uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
+                          test_fraction=args.test_fraction, intercept=not args.no_intercept, missing=args.missing,
+                          engine=args.engine or "local", scheduler=args.scheduler,
+                          chunk_rows=min(args.chunk_rows, 200_000), progress=_Progress())
+    return s, _Info(info)
+
+
 def cmd_sweep(args, out):
     degrees = parse_degrees(args.degrees)
     lams = parse_grid(args.lambdas, log=True, option="--lambdas")
@@ -250,7 +286,9 @@ def cmd_sweep(args, out):
         lams = np.concatenate([[0.0], lams])
     path = Path(args.data)
     streamable = path.suffix.lower() in (".csv", ".tsv", ".txt", ".parquet")
-    if args.stream or (streamable and path.is_file() and path.stat().st_size > STREAM_BYTES):
+    if args.engine or path.is_dir() or any(ch in args.data for ch in "*?["):
+        s, t = _sweep_engine(args, degrees, lams)
+    elif args.stream or (streamable and path.is_file() and path.stat().st_size > STREAM_BYTES):
         s, t = _sweep_streamed(args, degrees, lams)
     else:
         t = _read(args, {"group": args.group, "fold": args.fold_column})
@@ -280,6 +318,14 @@ def cmd_sweep(args, out):
         write_atomic(args.json, json.dumps(s.to_dict(), indent=2), force=args.force)
     if args.save:
         _save_choice(args, t, s, out)
+    if args.save_stats:
+        from core.statsfile import save_stats
+
+        meta = {"x_column": getattr(t, "x_name", None) or t.x.name, "y_column": getattr(t, "y_name", None) or t.y.name,
+                "file": Path(t.path).name if not str(t.path).endswith("files)") else t.path,
+                "columns_sha256": t.columns_sha256}
+        save_stats(args.save_stats, s.engine, meta, force=args.force)
+        print(f"saved statistics -> {args.save_stats}", file=out)
     return 0
 
 

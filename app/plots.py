@@ -203,10 +203,13 @@ class FigureSet:
             self.cx_src["heat_rec"].data = {
                 "x": [math.log10(r.lam) if r.lam > 0 else math.log10(s.lambdas[1]) for r in recs],
                 "y": [r.degree for r in recs], "rule": [r.rule for r in recs]}
-        if state.table is not None:
-            self.fit_fig.xaxis.axis_label = self.rx.xaxis.axis_label = state.table.x.name
-            self.fit_fig.yaxis.axis_label = state.table.y.name
-            self.ry.xaxis.axis_label = "fitted " + state.table.y.name
+        names = ((state.table.x.name, state.table.y.name) if state.table is not None else
+                 ((state.stats_meta or {}).get("x_column"), (state.stats_meta or {}).get("y_column")))
+        if names[0]:
+            self.fit_fig.xaxis.axis_label = self.rx.xaxis.axis_label = names[0]
+        if names[1]:
+            self.fit_fig.yaxis.axis_label = names[1]
+            self.ry.xaxis.axis_label = "fitted " + names[1]
         self.lc_src.data = learning_columns(state.learning)
 
     def update(self, state, show_sealed: bool) -> None:

@@ -55,8 +55,9 @@ class Workbench(param.Parameterized):
     version = param.Integer(0, doc="bumped after every recompute; views watch it")
     data_version = param.Integer(0, doc="bumped when data or folds change")
 
-    def __init__(self, path=None, **params):
+    def __init__(self, path=None, *, stats=None, **params):
         super().__init__(**params)
+        self.stats_meta = None
         self.table = None
         self.columns: list[str] = []
         self.engine = None
@@ -65,8 +66,40 @@ class Workbench(param.Parameterized):
         self.out: dict = {}
         self._file_bytes = None
         self._file_name = None
-        if path is not None:
+        if stats is not None:
+            self.load_stats(stats)
+        elif path is not None:
             self.load_path(path)
+
+    def load_stats(self, path) -> bool:
+        """Explore a sweep saved as statistics (no rows: no scatter, fixed folds)."""
+        from core.statsfile import load_stats
+
+        try:
+            engine, meta = load_stats(path)
+        except CurvewrightError as exc:
+            self.status = f"Could not load {Path(path).name}: {exc}"
+            return False
+        self.stats_meta = meta
+        self.table = None
+        self._display_name = Path(path).name
+        self.engine = engine
+        self.surface = core.surface_from_engine(engine, [d for d in SEARCH_DEGREES if d <= engine.max_degree],
+                                                np.concatenate([[0.0], LAMBDA_GRID]))
+        self.param.degree.bounds = (0, engine.max_degree)
+        self.degree = min(self.degree, engine.max_degree)
+        empty = np.zeros(0)
+        self._x = self._y = self._x_aside = self._y_aside = empty
+        self._test = self._keep = np.zeros(0, dtype=bool)
+        self._shown = np.zeros(0, dtype=int)
+        c, h = engine.domain.center, engine.domain.half_width
+        self._grid = np.linspace(c - 1.05 * h, c + 1.05 * h, 400)
+        self.learning = None
+        self.status = (f"Loaded statistics {Path(path).name}: {engine.n_train:,} rows for CV, "
+                       f"{engine.n_test:,} sealed (no rows: folds are fixed, points are not drawn).")
+        self.data_version += 1
+        self._refresh()
+        return True
 
     # ---- data -----------------------------------------------------------------
     def load_path(self, path, name=None) -> bool:
@@ -134,6 +167,8 @@ class Workbench(param.Parameterized):
     def rebuild(self) -> None:
         """New statistics (data, folds, seed, sealed or training fraction changed)."""
         if self.table is None:
+            if self.stats_meta is not None:
+                self.status = "These statistics fix the folds, seed and fractions; load the data to change them."
             return
         t = self.table
         self.busy = True
@@ -256,6 +291,9 @@ class Workbench(param.Parameterized):
         e = self.engine
         if e is None:
             return
+        if self.table is None:
+            self.status = "A learning curve needs the rows; statistics alone cannot give one."
+            return
         self.busy = True
         try:
             w = None if self.table.weights is None else self.table.weights[self._keep]
@@ -283,6 +321,14 @@ class Workbench(param.Parameterized):
         """The choice document for the current setting (same format as the command line)."""
         e, t = self.engine, self.table
         d, lam = min(self.degree, e.max_degree), self.lam
+        if t is None:      # statistics only: fit from them
+            m = self.stats_meta or {}
+            from core.table import unit_of
+            data = {"file": m.get("file"), "file_sha256": None, "columns_sha256": m.get("columns_sha256", ""),
+                    "rows_dropped": [], "x_column": m.get("x_column") or "x", "y_column": m.get("y_column") or "y",
+                    "x_unit": unit_of(m.get("x_column") or ""), "y_unit": unit_of(m.get("y_column") or "")}
+            return make_choice(None, None, self.surface, d, lam, rule=rule_of(self.surface, d, lam), data=data,
+                               notes=notes, version=core.__version__)
         w = None if t.weights is None else t.weights[self._keep]
         data = {"file": self._display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
                 "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,

@@ -13,6 +13,8 @@ documented here so a user can reproduce it without this code:
 * grouped: the distinct groups are shuffled by ``default_rng([seed, 13, r])``
   and each is put, in that order, into the fold with the fewest rows so far.
 * explicit: the distinct values of the fold column, sorted, become folds 0..k-1.
+* hash (the partitioned engines, ``core.blocks``): row i's fold and sealed status are
+  splitmix64 draws of (i, seed, repeat), independent of how the rows are split.
 """
 
 from __future__ import annotations
@@ -50,14 +52,16 @@ class FoldPlan:
     labels: np.ndarray = field(repr=False)
     test_mask: np.ndarray = field(repr=False)
     test_fraction: float = 0.0
+    n_rows: int | None = None      # set for hashed plans, whose labels are not held
+    n_sealed: int | None = None
 
     @property
     def n(self) -> int:
-        return int(self.test_mask.shape[0])
+        return int(self.test_mask.shape[0]) if self.n_rows is None else self.n_rows
 
     @property
     def n_test(self) -> int:
-        return int(self.test_mask.sum())
+        return int(self.test_mask.sum()) if self.n_sealed is None else self.n_sealed
 
     def to_dict(self) -> dict:
         return {"scheme": self.scheme, "k": self.k, "repeats": self.repeats,

@@ -174,7 +174,7 @@ def _columns(names, offset, frame, decimal, fname, missing):
 
 
 def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "refuse",
-              chunk_rows: int = 500_000) -> Scan:
+              chunk_rows: int = 500_000, require_spread: bool = True) -> Scan:
     """First read: validate, count, x range, fingerprints (see module docstring)."""
     path = Path(path)
     specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
@@ -196,7 +196,7 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "ref
         raise DataError(message(f"File '{path.name}'", "data rows below the header", "a header only"))
     if n_used == 0:
         raise DataError(message(f"File '{path.name}'", "at least one complete row", "none"))
-    if not lo < hi:
+    if require_spread and not lo < hi:
         raise DataError(message(f"File '{path.name}' column '{names['x']}'", "at least two distinct x values",
                                 f"only {lo!r}", "A curve cannot be fitted against a single x value"))
     fh = hashlib.sha256()

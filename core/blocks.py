@@ -1,0 +1,167 @@
+"""Partition-independent statistics: hashed folds, canonical row blocks, double-double sums.
+
+For engines that split the rows across processes (``core.distributed``) the result
+must not depend on how the rows were split. Three things make it so:
+
+* **Hashed folds.** Row i (0-based over all files in order) goes to fold
+  ``floor(k * u)`` with ``u = splitmix64(i, seed, repeat) / 2^64``, and to the
+  sealed test set when its own draw is below the test fraction: a function of the
+  row alone, so any process can assign it.
+* **Canonical blocks.** Rows are grouped into blocks of ``block_rows`` consecutive
+  global indices; each block's per-cell Gram matrix is computed from exactly its
+  rows, in order, by single-threaded BLAS, so the same block gives the same bits
+  wherever it is computed. A block cut by a partition edge is sent, as rows, to the
+  process that merges, and computed there once it is whole.
+* **Double-double sums.** Block matrices are summed with an error-free two-sum
+  (a high and a low word per entry), so the order in which blocks and partitions
+  are added changes the total only at the 1e-32 level.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .basis import Domain, legendre_columns
+from .moments import Moments
+
+__all__ = ["hash_unit", "hash_cells", "BlockAccumulator", "BLOCK_ROWS"]
+
+BLOCK_ROWS = 8192
+_M1, _M2, _GOLD = np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB), np.uint64(0x9E3779B97F4A7C15)
+
+
+def _mix(z: np.ndarray) -> np.ndarray:
+    """splitmix64 finalizer on uint64 arrays (wrapping arithmetic)."""
+    with np.errstate(over="ignore"):
+        z = z + _GOLD
+        z = (z ^ (z >> np.uint64(30))) * _M1
+        z = (z ^ (z >> np.uint64(27))) * _M2
+        return z ^ (z >> np.uint64(31))
+
+
+def hash_unit(index: np.ndarray, seed: int, stream: int) -> np.ndarray:
+    """Uniform draws in [0, 1) that depend only on (row index, seed, stream)."""
+    key = _mix(np.array([seed * 1_000_003 + stream * 7_919 + 12_345], dtype=np.uint64))[0]
+    z = _mix(np.asarray(index, dtype=np.uint64) ^ key)
+    return (z >> np.uint64(11)).astype(np.float64) * (1.0 / 9007199254740992.0)
+
+
+def hash_cells(index: np.ndarray, *, seed: int, k: int, repeats: int, test_fraction: float) -> np.ndarray:
+    """Cell labels of shape (repeats, m): ``r * k + fold``; sealed rows -> ``R * k`` (repeat 0), -1 after."""
+    sealed = hash_unit(index, seed, 0) < test_fraction
+    labels = np.empty((repeats, len(index)), dtype=np.int32)
+    for r in range(repeats):
+        fold = np.minimum((hash_unit(index, seed, 1 + r) * k).astype(np.int32), k - 1)
+        labels[r] = r * k + fold
+        labels[r, sealed] = repeats * k if r == 0 else -1
+    return labels
+
+
+@dataclass
+class _Pending:
+    """Rows of a block seen only in part so far: (first global index, x, y, w) pieces."""
+    pieces: list = field(default_factory=list)
+
+    @property
+    def rows(self) -> int:
+        return sum(len(p[1]) for p in self.pieces)
+
+
+class BlockAccumulator:
+    """Statistics over canonical blocks with double-double sums (see module docstring).
+
+    Parameters
+    ----------
+    domain, max_degree, y_shift : as for ``core.moments``; must be the same in every process.
+    seed, k, repeats, test_fraction : the hashed fold scheme.
+    block_rows : int
+    """
+
+    def __init__(self, domain: Domain, max_degree: int, y_shift: float, *, seed: int, k: int, repeats: int,
+                 test_fraction: float, block_rows: int = BLOCK_ROWS):
+        self.domain, self.D, self.y_shift = domain, int(max_degree), float(y_shift)
+        self.seed, self.k, self.R, self.test_fraction = int(seed), int(k), int(repeats), float(test_fraction)
+        self.block_rows = int(block_rows)
+        self.n_cells = self.R * self.k + 1
+        p = self.D + 2
+        self.hi = np.zeros((self.n_cells, p, p))
+        self.lo = np.zeros((self.n_cells, p, p))
+        self.counts = np.zeros(self.n_cells, dtype=np.int64)
+        self.pending: dict[int, _Pending] = {}
+
+    # ---- adding rows ------------------------------------------------------------------
+    def add_rows(self, start: int, x, y, w=None) -> None:
+        """Rows with global indices start, start + 1, ... (in order)."""
+        x = np.asarray(x, dtype=np.float64)
+        y = np.asarray(y, dtype=np.float64)
+        w = None if w is None else np.asarray(w, dtype=np.float64)
+        G = self.block_rows
+        pos = 0
+        n = len(x)
+        while pos < n:
+            g = start + pos
+            b = g // G
+            end = min(n, pos + (b + 1) * G - g)
+            piece = (g, x[pos:end], y[pos:end], None if w is None else w[pos:end])
+            if g == b * G and end - pos == G:
+                self._block(*piece)
+            else:
+                pend = self.pending.setdefault(b, _Pending())
+                pend.pieces.append(piece)
+                if pend.rows == G:
+                    self._complete(b)
+            pos = end
+
+    def _complete(self, b: int) -> None:
+        pieces = sorted(self.pending.pop(b).pieces, key=lambda p: p[0])
+        x = np.concatenate([p[1] for p in pieces])
+        y = np.concatenate([p[2] for p in pieces])
+        w = None if pieces[0][3] is None else np.concatenate([p[3] for p in pieces])
+        self._block(pieces[0][0], x, y, w)
+
+    def _block(self, start: int, x, y, w) -> None:
+        from threadpoolctl import threadpool_limits
+
+        m = len(x)
+        B = np.empty((m, self.D + 2))
+        legendre_columns(self.domain.map(x), self.D, out=B[:, : self.D + 1])
+        B[:, self.D + 1] = y - self.y_shift
+        if w is not None:
+            B *= np.sqrt(w)[:, None]
+        labels = hash_cells(np.arange(start, start + m), seed=self.seed, k=self.k, repeats=self.R,
+                            test_fraction=self.test_fraction)
+        with threadpool_limits(1, user_api="blas"):
+            for lab in labels:
+                for c in np.unique(lab[lab >= 0]):
+                    blk = np.ascontiguousarray(B[lab == c])
+                    self._add(c, blk.T @ blk)
+                    self.counts[c] += len(blk)
+
+    def _add(self, c: int, g: np.ndarray) -> None:
+        s = self.hi[c] + g
+        bp = s - self.hi[c]
+        err = (self.hi[c] - (s - bp)) + (g - bp)
+        self.hi[c] = s
+        self.lo[c] += err
+
+    # ---- combining ----------------------------------------------------------------------
+    def merge(self, other: "BlockAccumulator") -> "BlockAccumulator":
+        """Add another accumulator's sums and pending rows into this one (returns self)."""
+        for c in range(self.n_cells):
+            self._add(c, other.hi[c])
+            self.lo[c] += other.lo[c]
+        self.counts += other.counts
+        for b, pend in other.pending.items():
+            mine = self.pending.setdefault(b, _Pending())
+            mine.pieces.extend(pend.pieces)
+            if mine.rows == self.block_rows:
+                self._complete(b)
+        return self
+
+    def finish(self) -> Moments:
+        """Compute the remaining partial blocks (the data's last one) and return the statistics."""
+        for b in sorted(self.pending):
+            self._complete(b)
+        return Moments(self.domain, self.D, self.y_shift, self.hi + self.lo, self.counts.copy())
