@@ -75,6 +75,7 @@ def _data_args(p, need_y=True):
     p.add_argument("--missing", choices=["refuse", "drop"], default="refuse")
     p.add_argument("--sheet", help="worksheet of an .xlsx file (default: the first)")
     p.add_argument("--no-intercept", action="store_true", help="fit through the origin")
+    p.add_argument("--exclude", default="", help="spreadsheet rows to leave out, e.g. 7,19 (recorded)")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -86,6 +87,13 @@ def build_parser() -> argparse.ArgumentParser:
     _data_args(f)
     f.add_argument("--degree", type=int, required=True)
     f.add_argument("--lambda", dest="lam", type=float, default=0.0)
+    f.add_argument("--penalty", choices=["ridge", "lasso", "elastic"], default="ridge")
+    f.add_argument("--mix", type=float, default=0.5, help="elastic net: share of the L1 term")
+    f.add_argument("--interval", choices=["confidence", "prediction"],
+                   help="print the interval at 7 points across the range (lambda = 0: t-based; else bootstrap)")
+    f.add_argument("--influence", action="store_true", help="list influential rows (lambda = 0: Cook's D > 4/n)")
+    f.add_argument("--bias-variance", action="store_true",
+                   help="split the expected error into bias^2, variance and noise, simulated from this fit")
     f.add_argument("--json", help="write the fit as JSON here")
     f.add_argument("--force", action="store_true", help="overwrite an existing output file")
 
@@ -95,6 +103,9 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--lambdas", default="1e-6:1e4:30", help="log grid START:STOP:COUNT")
     s.add_argument("--with-zero", action="store_true", help="add lambda = 0 to the grid")
     s.add_argument("--folds", type=int, default=10)
+    s.add_argument("--loo", action="store_true", help="leave-one-out through the hat matrix instead of k-fold")
+    s.add_argument("--penalty", choices=["ridge", "lasso", "elastic"], default="ridge")
+    s.add_argument("--mix", type=float, default=0.5, help="elastic net: share of the L1 term")
     s.add_argument("--repeats", type=int, default=1)
     g = s.add_mutually_exclusive_group()
     g.add_argument("--group", help="group column: rows sharing a value stay in one fold")
@@ -115,6 +126,13 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--pick-lambda", type=float, help="save this lambda instead of the recommendation")
     s.add_argument("--notes", default="", help="free text stored in the choice file")
     s.add_argument("--force", action="store_true")
+
+    gd = sub.add_parser("gd", help="plain batch gradient descent on the same cost, against the closed form")
+    _data_args(gd)
+    gd.add_argument("--degree", type=int, required=True)
+    gd.add_argument("--lambda", dest="lam", type=float, default=0.0)
+    gd.add_argument("--rate", type=float, help="learning rate (default: 0.9 x the largest stable rate)")
+    gd.add_argument("--iterations", type=int, default=2000)
 
     lc = sub.add_parser("learn", help="learning curve of one configuration")
     _data_args(lc)
@@ -175,9 +193,19 @@ def cmd_open(args, out):
 
 
 def _read(args, extra=None):
+    from core.table import exclude_rows
+
     table = read_table(args.data, x=args.x, y=args.y, weights=args.weights,
                        uncertainty=args.uncertainty, missing=args.missing, sheet=args.sheet,
                        **(extra or {}))
+    if getattr(args, "exclude", ""):
+        try:
+            rows = [int(v) for v in args.exclude.split(",") if v.strip()]
+        except ValueError:
+            raise ParameterError(message("Option --exclude", "row numbers like 7,19", repr(args.exclude))) from None
+        table = exclude_rows(table, rows)
+        print(f"note: excluded row(s) {', '.join(map(str, table.excluded_rows))} on request "
+              "(recorded in outputs).", file=sys.stderr)
     for note in table.notices:
         print(f"note: {note}", file=sys.stderr)
     if table.rows_dropped:
@@ -196,7 +224,7 @@ def _fmt(v) -> str:
 def cmd_fit(args, out):
     t = _read(args)
     r = core.fit(t.x.values, t.y.values, args.degree, args.lam, weights=t.weights,
-                 intercept=not args.no_intercept)
+                 intercept=not args.no_intercept, penalty=args.penalty, mix=args.mix)
     print(f"degree {r.degree}, lambda {_fmt(r.lam)}, {r.n} rows"
           + (", weighted" if r.weighted else "") + ("" if r.intercept else ", through origin"), file=out)
     print(f"{'term':>6}  {'estimate':>20}  {'std error':>18}", file=out)
@@ -205,9 +233,48 @@ def cmd_fit(args, out):
     print(f"residual SD {_fmt(r.residual_sd)}   R-squared {_fmt(r.r_squared)}"
           f"{'' if r.intercept else ' (uncentred)'}   residual df {_fmt(r.df_residual)}"
           f"   effective df {_fmt(r.effective_df)}", file=out)
+    if t.weight_kind == "uncertainty":
+        print(f"reduced chi-square {_fmt(r.reduced_chi_square)} (near 1 when curve and stated uncertainties "
+              "agree)", file=out)
+    if args.interval:
+        xs = np.linspace(r.x_range[0], r.x_range[1], 7)
+        if r.legendre_cov is not None:
+            yhat, lo, hi = r.predict(xs, interval=args.interval)
+            how = "t-based"
+        else:
+            from core.uncertainty import bootstrap_interval
+
+            yhat, lo, hi = bootstrap_interval(t.x.values, t.y.values, args.degree, args.lam, xs,
+                                              interval=args.interval, weights=t.weights,
+                                              intercept=not args.no_intercept, penalty=args.penalty, mix=args.mix)
+            how = "bootstrap, 400 resamples"
+        print(f"95% {args.interval} interval ({how}):", file=out)
+        for a, b_, c_, d_ in zip(xs, yhat, lo, hi):
+            print(f"  x {a:>12.6g}  fit {b_:>14.8g}  [{c_:.8g}, {d_:.8g}]", file=out)
+    if args.influence:
+        if r.lam != 0:
+            print("note: influence measures are classical (lambda = 0); refit with --lambda 0.", file=out)
+        else:
+            from core.influence import influence
+
+            inf = influence(r, t.x.values, t.y.values, t.weights)
+            rows = t.row_numbers[inf.flagged]
+            print(f"influential rows (Cook's D > 4/n = {inf.threshold:.3g}, common practice): "
+                  + (", ".join(f"row {int(n)} (D {inf.cooks_distance[i]:.3g}, studentized {inf.studentized[i]:.2f})"
+                               for n, i in zip(rows, inf.flagged)) or "none"), file=out)
+    if args.bias_variance:
+        from core.uncertainty import bias_variance
+
+        bv = bias_variance(t.x.values, r.predict, r.residual_sd, args.degree, args.lam, weights=t.weights,
+                           intercept=not args.no_intercept)
+        print(f"expected squared error at new x (simulated from this fit, noise SD {r.residual_sd:.4g}): "
+              f"bias^2 {bv.bias2:.4g} + variance {bv.variance:.4g} + noise {bv.noise:.4g} = {bv.expected_mse:.4g} "
+              f"(simulation of {bv.n_sets} data sets: bias^2 {bv.simulated_bias2:.4g}, variance "
+              f"{bv.simulated_variance:.4g})", file=out)
     if args.json:
         doc = r.to_dict()
-        doc["data"] = {"file": t.path, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name}
+        doc["data"] = {"file": t.path, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name,
+                       "excluded_rows": list(t.excluded_rows)}
         write_atomic(args.json, json.dumps(doc, indent=2), force=args.force)
     return 0
 
@@ -292,9 +359,10 @@ def cmd_sweep(args, out):
         s, t = _sweep_streamed(args, degrees, lams)
     else:
         t = _read(args, {"group": args.group, "fold": args.fold_column})
-        s = core.sweep(t.x.values, t.y.values, degrees, lams, folds=args.folds, repeats=args.repeats,
-                       groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
-                       test_fraction=args.test_fraction, intercept=not args.no_intercept)
+        s = core.sweep(t.x.values, t.y.values, degrees, lams, folds="loo" if args.loo else args.folds,
+                       repeats=args.repeats, groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
+                       test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                       penalty=args.penalty, mix=args.mix)
     n_rows = t.rows_used if hasattr(t, "rows_used") else t.n
     f = s.folds
     print(f"{n_rows} rows ({s.n_train} for cross-validation, {f['n_test']} sealed); "
@@ -343,7 +411,8 @@ def _save_choice(args, t, s, out):
         d, lam = rec.degree, rec.lam
     streamed = hasattr(t, "rows_used")
     data = {"file": Path(t.path).name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
-            "rows_dropped": list(map(int, t.rows_dropped))}
+            "rows_dropped": list(map(int, t.rows_dropped)),
+            "excluded_rows": list(getattr(t, "excluded_rows", ()))}
     if streamed:
         data.update({"x_column": t.x_name, "y_column": t.y_name, "x_unit": t.x_unit, "y_unit": t.y_unit})
         kind = "uncertainty" if args.uncertainty else ("weights" if args.weights else None)
@@ -447,6 +516,21 @@ def cmd_report(args, out):
     return 0
 
 
+def cmd_gd(args, out):
+    t = _read(args)
+    e = core.build_engine(t.x.values, t.y.values, max_degree=args.degree, folds=2, weights=t.weights)
+    probe = core.gradient_descent(e.full, args.degree, args.lam, learning_rate=1e-12, iterations=1)
+    rate = args.rate if args.rate is not None else 0.9 * probe.max_stable_rate
+    res = core.gradient_descent(e.full, args.degree, args.lam, learning_rate=rate, iterations=args.iterations)
+    steps = np.unique(np.geomspace(1, len(res.cost) - 1, 12).astype(int))
+    print(f"gradient descent, degree {args.degree}, lambda {args.lam:g}, rate {rate:.4g}", file=out)
+    for k in [0, *steps]:
+        if np.isfinite(res.cost[k]):
+            print(f"  step {k:>8}  cost {res.cost[k]:.10g}", file=out)
+    print(res.message, file=out)
+    return 0
+
+
 def cmd_learn(args, out):
     t = _read(args)
     sizes = parse_grid(args.sizes, log=False, option="--sizes")
@@ -465,7 +549,8 @@ def cmd_learn(args, out):
 
 
 COMMANDS = {"fit": cmd_fit, "sweep": cmd_sweep, "learn": cmd_learn, "open": cmd_open,
-            "schema": cmd_schema, "apply": cmd_apply, "check": cmd_check, "report": cmd_report}
+            "schema": cmd_schema, "apply": cmd_apply, "check": cmd_check, "report": cmd_report,
+            "gd": cmd_gd}
 
 
 def main(argv=None, out=None) -> int:

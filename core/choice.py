@@ -185,7 +185,7 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
         x = np.asarray(x, dtype=float)[train]
         y = np.asarray(y, dtype=float)[train]
         w = None if weights is None else np.asarray(weights, dtype=float)[train]
-        f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept)
+        f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept, penalty=eng.penalty, mix=eng.mix)
         rows, xr = int(x.size), [float(x.min()), float(x.max())]
     m, se, _ = eng.cv_summary(degree, [lam])
     info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
@@ -217,7 +217,10 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
         "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
         "software": {"name": "curvewright", "version": version},
         "data": data,
-        "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": "ridge", "intercept": fit.intercept,
+        "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": fit.penalty, "mix": fit.mix,
+                  "reduced_chi_square": (float(fit.reduced_chi_square) if weights_kind == "uncertainty"
+                                         and np.isfinite(fit.reduced_chi_square) else None),
+                  "intercept": fit.intercept,
                   "weights_column": weights_column,
                   "weights_kind": weights_kind if weights_column else None, "domain": fit.domain.to_dict(),
                   "legendre_coefficients": [float(v) for v in fit.legendre],

@@ -98,6 +98,14 @@ class FitResult:
     weighted: bool
     x_range: tuple
     legendre_cov: np.ndarray | None = field(default=None, repr=False)
+    penalty: str = "ridge"
+    mix: float = 0.0
+
+    @property
+    def reduced_chi_square(self) -> float:
+        """SSE_w / df_residual: with weights 1/u^2 (standard uncertainties) it should be near 1
+        when the curve and the stated uncertainties agree (common practice in calibration)."""
+        return self.residual_sd ** 2
 
     @property
     def terms(self) -> list[str]:
@@ -139,6 +147,7 @@ class FitResult:
     def to_dict(self) -> dict:
         return {
             "degree": self.degree, "lambda": self.lam, "intercept": self.intercept,
+            "penalty": self.penalty, "mix": self.mix, "reduced_chi_square": self.reduced_chi_square,
             "n": self.n, "weighted": self.weighted,
             "power_coefficients": self.power_table(),
             "legendre_coefficients": [float(v) for v in self.legendre],
@@ -188,7 +197,8 @@ def _ols_rows(x, y, w, degree, intercept, domain):
     return legendre, power, sse, cov_unscaled, p0
 
 
-def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = True) -> FitResult:
+def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = True,
+        penalty: str = "ridge", mix: float = 0.5) -> FitResult:
     """Fit the regularized polynomial of one degree and lambda to all given rows.
 
     Parameters
@@ -204,6 +214,11 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         Positive row weights (default 1).
     intercept : bool
         False fits through the origin (yhat(0) = 0).
+    penalty : {"ridge", "lasso", "elastic"}
+        lambda * (mix * sum |b| + (1 - mix) * sum b^2) on the standardized
+        coefficients (``core.penalized``); ridge is mix = 0, lasso mix = 1.
+    mix : float
+        The elastic net's L1 share.
 
     Returns
     -------
@@ -223,8 +238,11 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     >>> np.round(r.power, 12).tolist()
     [1.0, 2.0]
     """
+    from .penalized import check_penalty, penalized_coefficients
+
     degree = check_degree(degree)
     lam = float(check_lambdas(lam)[0])
+    mix_ = check_penalty(penalty, mix)
     x, y, w = check_xyw(x, y, weights)
     weighted = weights is not None
     n = x.size
@@ -264,12 +282,16 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         M = accumulate(x, y, labels=np.zeros((1, n), dtype=np.int16), n_cells=1,
                        domain=domain, max_degree=degree, weights=w)
         solver = FoldSolver(M.gram[0], domain, M.y_shift, intercept)
-        theta = solver.coefficients(degree, [lam])[0]
+        if penalty == "ridge":
+            theta = solver.coefficients(degree, [lam])[0]
+            edf = float(solver.effective_df(degree, [lam])[0])
+        else:
+            th, df = penalized_coefficients([solver], degree, np.array([lam]), mix_)
+            theta, edf = th[0, 0], float(df[0, 0])
         theta[0] += solver.offset
         legendre = theta
         r = y - legval(domain.map(x), legendre)
         sse = float(np.sum(w * r * r))
-        edf = float(solver.effective_df(degree, [lam])[0])
         df_res = float(n - edf)
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
         power = legendre_to_power(domain, legendre)
@@ -279,7 +301,7 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     return FitResult(degree, lam, bool(intercept), domain, np.asarray(legendre, float),
                      np.asarray(power, float), se, resid_sd, float(r2), df_res, edf, int(n),
                      float(sse), float(sse / np.sum(w)), weighted, (float(x.min()), float(x.max())),
-                     leg_cov)
+                     leg_cov, penalty, mix_)
 
 
 def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
@@ -293,14 +315,14 @@ def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
     degree = check_degree(degree, engine.max_degree)
     lam = float(check_lambdas(lam)[0])
     sv = engine.full
-    theta_w = sv.coefficients(degree, [lam])
+    theta_w = engine._full_coefficients(degree, [lam])
     sse = float(FoldSolver.sse(engine.full_stats, theta_w)[0])
     legendre = theta_w[0].copy()
     legendre[0] += sv.offset
     n = engine.n_train
     W = float(engine.full_stats[0, 0])
     p = degree + 1 if sv.intercept else degree
-    edf = float(sv.effective_df(degree, [lam])[0])
+    edf = float(engine.effective_df(degree, [lam])[0])
     S = engine.full_stats
     if sv.intercept:
         sst = float(sv.yy_centred)
@@ -332,4 +354,5 @@ def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
     hi = domain.center + domain.half_width
     return FitResult(degree, lam, sv.intercept, domain, legendre, power, se, resid_sd,
                      float(1 - sse / sst) if sst > 0 else float("nan"), df_res, edf, int(n), sse,
-                     sse / W, bool(not np.allclose(W, n)), (float(lo), float(hi)), leg_cov)
+                     sse / W, bool(not np.allclose(W, n)), (float(lo), float(hi)), leg_cov,
+                     engine.penalty, engine.mix)

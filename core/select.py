@@ -72,10 +72,15 @@ class Engine:
     repeat r and fold f, plus one last cell for the sealed test rows.
     """
 
-    def __init__(self, moments: Moments, plan: FoldPlan, intercept: bool = True):
+    def __init__(self, moments: Moments, plan: FoldPlan, intercept: bool = True, *,
+                 penalty: str = "ridge", mix: float = 0.5):
+        from .penalized import check_penalty
+
         self.moments = moments
         self.plan = plan
         self.intercept = bool(intercept)
+        self.penalty = penalty
+        self.mix = check_penalty(penalty, mix)
         k, R = plan.k, plan.repeats
         self.n_folds = k * R
         gram = moments.gram
@@ -121,12 +126,28 @@ class Engine:
         """Held-out and training MSE per fold: two arrays of shape (n_folds, len(lams))
         (the second is None with ``train=False``)."""
         lams = check_lambdas(lams)
-        theta = self.batch(check_degree(degree, self.max_degree)).coefficients(lams)[:-1]
+        theta = self._all_coefficients(check_degree(degree, self.max_degree), lams)[:-1]
         with np.errstate(invalid="ignore", divide="ignore"):
             wh = self._held[:, 0, 0][:, None]
             cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
             tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None] if train else None
         return cv, tr
+
+    def _all_coefficients(self, degree: int, lams: np.ndarray) -> np.ndarray:
+        """Coefficients of every fold solver and, last, the all-rows solver: (F + 1, nl, d + 1)."""
+        if self.penalty == "ridge":
+            return self.batch(degree).coefficients(lams)
+        from .penalized import penalized_coefficients
+
+        return penalized_coefficients(self.solvers + [self.full], degree, lams, self.mix)[0]
+
+    def _full_coefficients(self, degree: int, lams) -> np.ndarray:
+        lams = check_lambdas(lams)
+        if self.penalty == "ridge":
+            return self.full.coefficients(degree, lams)
+        from .penalized import penalized_coefficients
+
+        return penalized_coefficients([self.full], check_degree(degree, self.max_degree), lams, self.mix)[0][0]
 
     def cv_mean(self, degree: int, lam: float) -> float:
         """Mean CV MSE of one configuration (the refinement's objective)."""
@@ -141,12 +162,17 @@ class Engine:
 
     def curve(self, degree: int, lam: float) -> np.ndarray:
         """Legendre coefficients (raw y) of the fit on all training rows."""
-        theta = self.full.coefficients(degree, [lam])[0]
+        theta = self._full_coefficients(degree, [lam])[0]
         theta[0] += self.full.offset
         return theta
 
     def effective_df(self, degree: int, lams) -> np.ndarray:
         """df(lambda) on all training rows (ESL eq. 3.50, plus one for the intercept)."""
+        if self.penalty != "ridge":
+            from .penalized import penalized_coefficients
+
+            return penalized_coefficients([self.full], check_degree(degree, self.max_degree),
+                                          check_lambdas(lams), self.mix)[1][0]
         b = self.batch(check_degree(degree, self.max_degree))
         if b.RiU is None or b.slow and b.slow[-1] == len(b.solvers) - 1:
             return self.full.effective_df(degree, lams)
@@ -157,13 +183,13 @@ class Engine:
         return filt.sum(axis=1) + (1.0 if self.intercept else 0.0)
 
     def train_mse_all(self, degree: int, lams) -> np.ndarray:
-        theta = self.full.coefficients(degree, lams)
+        theta = self._full_coefficients(degree, lams)
         return FoldSolver.sse(self.full_stats, theta) / self.full_stats[0, 0]
 
     def test_mse(self, degree: int, lam: float) -> float:
         if self.test_stats is None:
             raise ParameterError("Sealed test set: expected one (test_fraction > 0), got none.")
-        theta = self.full.coefficients(degree, [lam])
+        theta = self._full_coefficients(degree, [lam])
         return float(FoldSolver.sse(self.test_stats, theta)[0] / self.test_stats[0, 0])
 
 
@@ -199,7 +225,7 @@ def cell_labels(plan: FoldPlan, max_degree: int) -> np.ndarray:
 
 def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int = 1, groups=None,
                  fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
-                 intercept: bool = True) -> Engine:
+                 intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> Engine:
     """Assign folds and run the one pass; see ``sweep`` for the parameters.
 
     The basis domain is the range of all rows (a choice of coordinates only:
@@ -217,7 +243,7 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
     domain = Domain.from_range(x.min(), x.max())
     mom = accumulate(x, y, labels=labels, n_cells=plan.repeats * plan.k + 1, domain=domain,
                      max_degree=max_degree, weights=None if weights is None else w)
-    return Engine(mom, plan, intercept)
+    return Engine(mom, plan, intercept, penalty=penalty, mix=mix)
 
 
 class SealedTest:
@@ -284,6 +310,7 @@ class Surface:
     train_mse: np.ndarray = field(repr=False)
     fold_mse: np.ndarray = field(repr=False)
     effective_df: np.ndarray = field(repr=False)
+    gcv_mse: np.ndarray = field(repr=False)
     recommended: dict
     folds: dict
     n_train: int
@@ -306,7 +333,7 @@ class Surface:
             "degrees": self.degrees.tolist(), "lambdas": self.lambdas.tolist(),
             "cv_mse": self.cv_mse.tolist(), "cv_mse_se": self.cv_mse_se.tolist(),
             "train_mse": self.train_mse.tolist(), "fold_mse": self.fold_mse.tolist(),
-            "effective_df": self.effective_df.tolist(),
+            "effective_df": self.effective_df.tolist(), "gcv_mse": self.gcv_mse.tolist(),
             "recommended": {k: v.to_dict() for k, v in self.recommended.items()},
             "folds": self.folds, "n_train": self.n_train, "intercept": self.intercept,
             "sealed_test": self.sealed.to_dict(),
@@ -400,22 +427,25 @@ def surface_from_engine(engine: Engine, degrees, lambdas) -> Surface:
     lams = _lambda_grid(lambdas)
     nd, nl = degrees.size, lams.size
     cv = np.empty((nd, nl)); se = np.empty((nd, nl)); tr = np.empty((nd, nl))
-    fold = np.empty((nd, nl, engine.n_folds)); edf = np.empty((nd, nl))
+    fold = np.empty((nd, nl, engine.n_folds)); edf = np.empty((nd, nl)); gcv = np.empty((nd, nl))
     for i, d in enumerate(degrees):
         c, t = engine.scores(int(d), lams)
         fold[i] = c.T
         cv[i], se[i] = fold_mean_se(c)
         tr[i] = t.mean(axis=0) if np.isfinite(t).all() else np.nanmean(t, axis=0)
         edf[i] = engine.effective_df(int(d), lams)
+        # generalized cross-validation (Golub, Heath & Wahba 1979) on all training rows
+        with np.errstate(divide="ignore", invalid="ignore"):
+            gcv[i] = engine.train_mse_all(int(d), lams) / (1.0 - edf[i] / engine.n_train) ** 2
     rec = _recommend(engine, degrees, lams, cv, se)
     sealed = SealedTest(engine.plan.test_fraction, engine.n_test)
-    return Surface(degrees, lams, cv, se, tr, fold, edf, rec, engine.plan.to_dict(),
+    return Surface(degrees, lams, cv, se, tr, fold, edf, gcv, rec, engine.plan.to_dict(),
                    engine.n_train, engine.intercept, sealed, engine)
 
 
 def sweep(x, y, degrees, lambdas, *, folds: int = 10, repeats: int = 1, groups=None,
           fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
-          intercept: bool = True) -> Surface:
+          intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> Surface:
     """Cross-validate every degree and lambda from one pass over the rows.
 
     Parameters
@@ -425,8 +455,9 @@ def sweep(x, y, degrees, lambdas, *, folds: int = 10, repeats: int = 1, groups=N
         Degrees 0..30 to score.
     lambdas : array_like
         Penalties >= 0 (0 = least squares).
-    folds : int
-        k (default 10); ignored with ``fold_ids``.
+    folds : int or "loo"
+        k (default 10); ignored with ``fold_ids``. ``"loo"`` scores leave-one-out through
+        the hat matrix (``core.loo``: one standardization for all rows).
     repeats : int
         Repeated k-fold with independent shuffles.
     groups : array_like of shape (n,), optional
@@ -438,6 +469,10 @@ def sweep(x, y, degrees, lambdas, *, folds: int = 10, repeats: int = 1, groups=N
     test_fraction : float
         Rows sealed away before folding (scored only by ``Surface.reveal_test``).
     intercept : bool
+    penalty : {"ridge", "lasso", "elastic"}
+        Penalty on the standardized coefficients (``core.penalized``).
+    mix : float
+        Elastic-net share of the L1 term (0 < mix <= 1).
 
     Returns
     -------
@@ -447,7 +482,15 @@ def sweep(x, y, degrees, lambdas, *, folds: int = 10, repeats: int = 1, groups=N
     if degrees.size == 0:
         raise ParameterError(message("Parameter 'degrees'", "at least one degree", "none"))
     max_degree = max(check_degree(d) for d in degrees.tolist())
+    if isinstance(folds, str):
+        if folds != "loo":
+            raise ParameterError(message("Parameter 'folds'", "an integer k or 'loo'", repr(folds)))
+        from .loo import build_loo_engine
+
+        engine = build_loo_engine(x, y, max_degree=max_degree, weights=weights, seed=seed,
+                                  test_fraction=test_fraction, groups=groups, intercept=intercept)
+        return surface_from_engine(engine, degrees, lambdas)
     engine = build_engine(x, y, max_degree=max_degree, folds=folds, repeats=repeats, groups=groups,
                           fold_ids=fold_ids, seed=seed, weights=weights,
-                          test_fraction=test_fraction, intercept=intercept)
+                          test_fraction=test_fraction, intercept=intercept, penalty=penalty, mix=mix)
     return surface_from_engine(engine, degrees, lambdas)

@@ -54,6 +54,8 @@ class Table:
     group_column: str | None = None
     fold_column: str | None = None
     weight_kind: str | None = None
+    row_numbers: np.ndarray | None = field(default=None, repr=False)   # spreadsheet row of each kept row
+    excluded_rows: tuple = ()
 
 
     @property
@@ -64,6 +66,35 @@ class Table:
         xv = self.x.values
         return {"file_sha256": self.file_sha256, "columns_sha256": self.columns_sha256,
                 "rows": self.n, "x_min": float(xv.min()), "x_max": float(xv.max())}
+
+
+def exclude_rows(table: "Table", rows) -> "Table":
+    """The table without the given spreadsheet rows (header = row 1); recorded, never silent.
+
+    Raises
+    ------
+    DataError
+        A row number that is not a data row of the table.
+    """
+    import dataclasses
+
+    rows = sorted({int(r) for r in rows})
+    if not rows:
+        return table
+    have = set(table.row_numbers.tolist())
+    missing = [r for r in rows if r not in have]
+    if missing:
+        raise DataError(message(f"Option --exclude row {missing[0]}", "a data row of the table (header is row 1)",
+                                "no such row", "Give spreadsheet row numbers of rows that were read"))
+    keep = ~np.isin(table.row_numbers, rows)
+
+    def cut(a):
+        return None if a is None else a[keep]
+    return dataclasses.replace(
+        table, x=dataclasses.replace(table.x, values=table.x.values[keep]),
+        y=None if table.y is None else dataclasses.replace(table.y, values=table.y.values[keep]),
+        weights=cut(table.weights), groups=cut(table.groups), folds=cut(table.folds),
+        row_numbers=table.row_numbers[keep], excluded_rows=tuple(rows))
 
 
 def columns_digest(digests: dict) -> str:
@@ -282,4 +313,5 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         extra["fold"][1][keep] if "fold" in extra else None,
         int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices),
         extra["group"][0] if "group" in extra else None, extra["fold"][0] if "fold" in extra else None,
-        "uncertainty" if "uncertainty" in numeric else ("weights" if "weights" in numeric else None))
+        "uncertainty" if "uncertainty" in numeric else ("weights" if "weights" in numeric else None),
+        np.flatnonzero(keep) + 2)
