@@ -40,8 +40,11 @@ def make_fit_figure(x_label: str, y_label: str):
         "sealed": ColumnDataSource({"x": [], "y": []}, name="sealed_points"),
         "curve": ColumnDataSource({"x": [], "y": []}, name="fit_curve"),
         "band": ColumnDataSource({"xs": [], "ys": []}, name="fit_band"),
+        "interval": ColumnDataSource({"x": [], "lo": [], "hi": []}, name="fit_interval"),
     }
     f = _fig("Fitted curve", x_label, y_label)
+    f.varea("x", "lo", "hi", source=src["interval"], color=INK, alpha=0.10,
+            legend_label="95% prediction interval (t-based at lambda = 0, else bootstrap on request)")
     f.multi_line("xs", "ys", source=src["band"], color=BAND, alpha=0.55, line_width=1,
                  legend_label="refit on each fold's training rows")
     f.scatter("x", "y", source=src["points"], size=6, color=FIT_ROWS, alpha=0.75, legend_label="rows in the fit")
@@ -49,22 +52,24 @@ def make_fit_figure(x_label: str, y_label: str):
               line_width=1.5, legend_label="rows set aside (training fraction)")
     f.scatter("x", "y", source=src["sealed"], size=9, marker="diamond", color=SEALED, legend_label="sealed test rows")
     f.line("x", "y", source=src["curve"], color=INK, line_width=2.5, legend_label="curve")
-    f.legend.location = "top_left"
     f.legend.click_policy = "hide"
     f.legend.label_text_font_size = "8pt"
+    f.add_layout(f.legend[0], "right")      # beside the plot, never over the data
     return f, src
 
 
 def make_residual_figures(x_label: str, y_label: str):
     src = {
-        "res": ColumnDataSource({"x": [], "fitted": [], "r": [], "color": []}, name="resid_points"),
+        "res": ColumnDataSource({"x": [], "fitted": [], "r": [], "color": [], "row": [], "size": []},
+                                name="resid_points"),
         "hist": ColumnDataSource({"left": [], "right": [], "count": []}, name="resid_hist"),
     }
     fx = _fig("Residuals against x", x_label, "residual")
     fy = _fig("Residuals against fitted value", "fitted " + y_label, "residual")
     lines = {}
     for f, col in ((fx, "x"), (fy, "fitted")):
-        f.scatter(col, "r", source=src["res"], size=5, color="color", alpha=0.8)
+        f.scatter(col, "r", source=src["res"], size="size", color="color", alpha=0.8)
+        f.add_tools(HoverTool(tooltips=[("row", "@row"), ("residual", "@r{0.0000}")], renderers=f.renderers[-1:]))
         zero = Span(location=0, dimension="width", line_color=INK, line_width=1)
         up = Span(location=0, dimension="width", line_color=ALERT, line_dash="dashed")
         dn = Span(location=0, dimension="width", line_color=ALERT, line_dash="dashed")
@@ -112,6 +117,16 @@ def make_complexity_figures():
     return (fd, fl, fh), src, mapper
 
 
+def make_gd_figure():
+    src = ColumnDataSource({"step": [], "cost": []}, name="gd_cost")
+    ref = ColumnDataSource({"step": [], "cost": []}, name="gd_closed_form")
+    f = _fig("Gradient descent: cost per step", "step", "cost J", y_axis_type="log")
+    f.line("step", "cost", source=src, color=TRAIN_LINE, line_width=2, legend_label="gradient descent")
+    f.line("step", "cost", source=ref, color=CV_LINE, line_dash="dashed", line_width=2, legend_label="closed form")
+    f.legend.location = "top_right"
+    return f, src, ref
+
+
 def make_learning_figure():
     src = ColumnDataSource({"n": [], "cv": [], "train": [], "cv_lo": [], "cv_hi": [], "tr_lo": [], "tr_hi": []},
                            name="learning_curve")
@@ -130,9 +145,13 @@ def residual_columns(out: dict) -> tuple[dict, dict, float]:
     r = out["resid"]
     sd = out["resid_sd"]
     big = np.abs(r) > 2 * sd
-    colors = np.where(big, ALERT, FIT_ROWS)
+    infl = out.get("influential", np.zeros(r.size, dtype=bool))
+    colors = np.where(infl, SEALED, np.where(big, ALERT, FIT_ROWS))
+    sizes = np.where(infl, 9, 5)
     keep = ~out["test"]
-    res = {"x": out["x"][keep], "fitted": out["fitted"][keep], "r": r[keep], "color": colors[keep]}
+    rows = out.get("rows", np.zeros(r.size, dtype=int))
+    res = {"x": out["x"][keep], "fitted": out["fitted"][keep], "r": r[keep], "color": colors[keep],
+           "row": rows[keep], "size": sizes[keep]}
     rr = r[keep]
     if rr.size:
         counts, edges = np.histogram(rr, bins=min(30, max(5, rr.size // 4)))
@@ -191,6 +210,7 @@ class FigureSet:
         (self.rx, self.ry, self.rh), self.res_src, self.res_lines = make_residual_figures(x_label, y_label)
         (self.fd, self.fl, self.fh), self.cx_src, _ = make_complexity_figures()
         self.lc_fig, self.lc_src = make_learning_figure()
+        self.gd_fig, self.gd_src, self.gd_ref = make_gd_figure()
 
     def update_data(self, state) -> None:
         """Parts that change only with new statistics: heat map, axis labels."""
@@ -226,6 +246,9 @@ class FigureSet:
         self.fit_src["aside"].data = {"x": out["aside_x"][:4000], "y": out["aside_y"][:4000]}
         self.fit_src["curve"].data = {"x": out["grid"], "y": out["curve"]}
         self.fit_src["band"].data = band_columns(out)
+        iv = out.get("interval")
+        self.fit_src["interval"].data = ({"x": out["grid"], "lo": iv[0], "hi": iv[1]} if iv is not None
+                                         else {"x": [], "lo": [], "hi": []})
         res, hist, sd = residual_columns(out)
         self.res_src["res"].data = res
         self.res_src["hist"].data = hist
@@ -245,3 +268,9 @@ class FigureSet:
         self.cx_src["lam_rec"].data = {"x": [max(r.lam, 10 ** LOG_LAMBDA_OFF) for r in here],
                                        "y": [r.cv_mse for r in here], "rule": [r.rule for r in here]}
         self.lc_src.data = learning_columns(state.learning)
+        gd = getattr(state, "gd", None)
+        if gd is not None:
+            ok = np.isfinite(gd.cost) & (gd.cost > 0)
+            steps = np.flatnonzero(ok)
+            self.gd_src.data = {"step": steps, "cost": gd.cost[ok]}
+            self.gd_ref.data = {"step": [0, max(len(gd.cost) - 1, 1)], "cost": [gd.closed_form_cost] * 2}

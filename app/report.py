@@ -44,7 +44,9 @@ def _state_for(choice: Choice, data_path) -> Workbench:
     wb = Workbench(folds=v["k"], seed=v["seed"], test_fraction=v["sealed_test"]["fraction"],
                    repeats=v["repeats"], x_column=d["x_column"], y_column=d["y_column"],
                    weight_column=m["weights_column"] or "", weight_kind=m.get("weights_kind") or "weights",
-                   group_column=v.get("group_column") or "")
+                   group_column=v.get("group_column") or "", penalty=m.get("penalty", "ridge"),
+                   mix=max(0.05, m.get("mix") or 0.5),
+                   exclude=", ".join(map(str, d.get("excluded_rows", []))))
     if not wb.load_path(data_path):
         raise DataError(wb.status)
     if wb.table.columns_sha256 != d["columns_sha256"]:

@@ -50,6 +50,11 @@ class Workbench(param.Parameterized):
                                  doc="the weight column holds weights, or standard uncertainties (w = 1/u^2)")
     group_column = param.String("", doc="rows sharing a value stay in one fold")
     repeats = param.Integer(1, bounds=(1, 20))
+    penalty = param.Selector(default="ridge", objects=["ridge", "lasso", "elastic"])
+    mix = param.Number(0.5, bounds=(0.05, 1.0), step=0.05, doc="elastic net: share of the L1 term")
+    exclude = param.String("", doc="spreadsheet rows left out on request, e.g. '7, 19' (recorded)")
+    gd_rate = param.Number(0.5, bounds=(1e-6, 10.0), doc="gradient-descent learning rate")
+    gd_iterations = param.Integer(500, bounds=(1, 100000))
     status = param.String("")
     busy = param.Boolean(False)
     version = param.Integer(0, doc="bumped after every recompute; views watch it")
@@ -59,6 +64,10 @@ class Workbench(param.Parameterized):
         super().__init__(**params)
         self.stats_meta = None
         self.table = None
+        self._table_full = None
+        self.gd = None
+        self.bias_var = None
+        self._boot = None
         self.columns: list[str] = []
         self.engine = None
         self.surface = None
@@ -92,6 +101,7 @@ class Workbench(param.Parameterized):
         self._x = self._y = self._x_aside = self._y_aside = empty
         self._test = self._keep = np.zeros(0, dtype=bool)
         self._shown = np.zeros(0, dtype=int)
+        self._row_numbers = None
         c, h = engine.domain.center, engine.domain.half_width
         self._grid = np.linspace(c - 1.05 * h, c + 1.05 * h, 400)
         self.learning = None
@@ -153,14 +163,64 @@ class Workbench(param.Parameterized):
         return True
 
     def _set_table(self, table) -> None:
+        from core.table import exclude_rows
+
+        self._table_full = table
+        self._exclude_problem = None
+        rows = self._excluded_rows(table)
+        table = exclude_rows(table, rows) if rows else table
         self.table = table
         with param.parameterized.batch_call_watchers(self):
             self.x_column, self.y_column = table.x.name, table.y.name
             self.weight_column = table.weight_column or ""
         dropped = len(table.rows_dropped)
         self.status = (f"Loaded {self._display_name}: {table.n} rows"
-                       + (f", {dropped} dropped for missing values" if dropped else "") + ".")
+                       + (f", {dropped} dropped for missing values" if dropped else "")
+                       + (f", rows {', '.join(map(str, table.excluded_rows))} excluded on request"
+                          if table.excluded_rows else "") + ".")
         self.rebuild()
+        if self._exclude_problem:
+            self.status = self._exclude_problem
+
+    def _excluded_rows(self, table) -> list[int]:
+        if not self.exclude.strip():
+            return []
+        try:
+            rows = [int(v) for v in self.exclude.replace(";", ",").split(",") if v.strip()]
+        except ValueError:
+            self._exclude_problem = f"Could not exclude rows: expected row numbers like '7, 19', got {self.exclude!r}."
+            return []
+        valid = set(table.row_numbers.tolist())
+        bad = [r for r in rows if r not in valid]
+        if bad:
+            self._exclude_problem = (f"Could not exclude row {bad[0]}: it is not a data row of this table "
+                                     "(header is row 1).")
+            return [r for r in rows if r in valid]
+        return rows
+
+    @param.depends("exclude", watch=True)
+    def _on_exclude(self) -> None:
+        if self._table_full is not None:
+            self._set_table(self._table_full)
+
+    @param.depends("penalty", "mix", watch=True)
+    def _on_penalty(self) -> None:
+        e = self.engine
+        if e is None:
+            return
+        from core.penalized import check_penalty
+
+        self.busy = True
+        try:
+            e.penalty, e.mix = self.penalty, check_penalty(self.penalty, self.mix)
+            self.surface = core.surface_from_engine(e, [d for d in SEARCH_DEGREES if d <= min(e.max_degree, 15)]
+                                                    if self.penalty != "ridge" else
+                                                    [d for d in SEARCH_DEGREES if d <= e.max_degree],
+                                                    np.concatenate([[0.0], LAMBDA_GRID]))
+            self.data_version += 1
+        finally:
+            self.busy = False
+        self._refresh()
 
     # ---- statistics ----------------------------------------------------------
     @param.depends("folds", "seed", "test_fraction", "train_fraction", "repeats", watch=True)
@@ -190,7 +250,8 @@ class Workbench(param.Parameterized):
                         engine = core.build_engine(x[keep], y[keep], max_degree=D, folds=folds, seed=self.seed,
                                                    weights=None if w is None else w[keep],
                                                    groups=None if t.groups is None else t.groups[keep],
-                                                   repeats=self.repeats, test_fraction=self.test_fraction)
+                                                   repeats=self.repeats, test_fraction=self.test_fraction,
+                                                   penalty=self.penalty, mix=self.mix)
                         break
                     except core.DataError as exc:
                         last = exc
@@ -205,6 +266,7 @@ class Workbench(param.Parameterized):
             self.revealed = None
             xs = x[keep]
             self._x, self._y = xs, y[keep]
+            self._row_numbers = None if t.row_numbers is None else t.row_numbers[keep]
             self._x_aside, self._y_aside = x[~keep], y[~keep]
             self._test = engine.plan.test_mask
             rng = np.random.default_rng(0)
@@ -259,9 +321,38 @@ class Workbench(param.Parameterized):
         dfe = float(e.effective_df(d, [lam])[0])
         sd = math.sqrt(train_mse * e.n_train / max(e.n_train - dfe, 1.0))
         cv, se, tr = e.cv_summary(d, [lam])
-        band = [legval(t_grid, sv.coefficients(d, [lam])[0] + np.r_[sv.offset, np.zeros(d)])
-                for sv in e.solvers[: e.plan.k]]
-        by_degree = [e.cv_summary(k, [lam]) for k in range(0, e.max_degree + 1)]
+        from core.solve import check_lambdas
+
+        every = e._all_coefficients(d, check_lambdas([lam]))
+        band = [legval(t_grid, th[0] + np.r_[e.full.offset, np.zeros(d)]) for th in every[: e.plan.k]]
+        top = e.max_degree if self.penalty == "ridge" else min(e.max_degree, 15)
+        by_degree = [e.cv_summary(k, [lam]) for k in range(0, top + 1)]
+        interval = None
+        if lam == 0 and self.penalty == "ridge":
+            from core.fit import fit_from_engine, interval_bounds
+
+            fr = fit_from_engine(e, d, 0.0)
+            if fr.legendre_cov is not None and fr.df_residual > 0:
+                interval = interval_bounds(legval(t_grid, theta), t_grid, fr.legendre_cov, fr.residual_sd,
+                                           fr.df_residual, "prediction", 0.95)
+        elif self._boot is not None and self._boot[0] == (d, lam, self.penalty, self.mix):
+            interval = self._boot[1]
+        flagged = np.zeros(xs.size, dtype=bool)
+        if lam == 0 and self.penalty == "ridge" and self.table is not None and 0 < self._x.size <= 20000:
+            train = ~self._test
+            w_all = None if self.table.weights is None else self.table.weights[self._keep]
+            try:
+                fr0 = core.fit(self._x[train], self._y[train], d, 0.0,
+                               weights=None if w_all is None else w_all[train])
+                from core.influence import influence
+
+                inf = influence(fr0, self._x[train], self._y[train], None if w_all is None else w_all[train])
+                big = np.zeros(self._x.size, dtype=bool)
+                big[np.flatnonzero(train)[inf.flagged]] = True
+                flagged = big[shown]
+            except CurvewrightError:
+                pass
+        rows = self._row_numbers[shown] if self._row_numbers is not None else np.zeros(xs.size, dtype=int)
         lam_axis = LAMBDA_GRID
         by_lam = e.cv_summary(d, lam_axis)
         self.out = {
@@ -270,7 +361,8 @@ class Workbench(param.Parameterized):
             "x": xs, "y": ys, "test": test, "aside_x": self._x_aside, "aside_y": self._y_aside, "fitted": fitted, "resid": resid,
             "resid_sd": sd, "train_rmse": math.sqrt(train_mse), "effective_df": dfe,
             "cv_mse": float(cv[0]), "cv_mse_se": float(se[0]), "cv_train_mse": float(tr[0]),
-            "by_degree": {"degree": np.arange(e.max_degree + 1),
+            "interval": interval, "influential": flagged, "rows": rows,
+            "by_degree": {"degree": np.arange(top + 1),
                           "cv": np.array([b[0][0] for b in by_degree]),
                           "se": np.array([b[1][0] for b in by_degree]),
                           "train": np.array([b[2][0] for b in by_degree])},
@@ -286,6 +378,64 @@ class Workbench(param.Parameterized):
         self.status = (f"Jumped to the {rule} recommendation: degree {rec.degree}, "
                        f"lambda {rec.lam:.3g}.")
         self._refresh()
+
+    def bootstrap_band(self, B: int = 200) -> None:
+        """Percentile prediction band from B bootstrap refits for the current setting."""
+        if self.table is None or self.engine is None:
+            self.status = "The bootstrap needs the rows."
+            return
+        from core.uncertainty import bootstrap_interval
+
+        e = self.engine
+        d, lam = min(self.degree, e.max_degree), self.lam
+        train = ~self._test
+        w = None if self.table.weights is None else self.table.weights[self._keep][train]
+        self.busy = True
+        try:
+            _, lo, hi = bootstrap_interval(self._x[train], self._y[train], d, lam, self._grid, B=B, seed=self.seed,
+                                           weights=w, penalty=self.penalty, mix=self.mix)
+            self._boot = ((d, lam, self.penalty, self.mix), (lo, hi))
+            self.status = f"Bootstrap prediction band from {B} refits (95%, percentile, resampled rows)."
+        except CurvewrightError as exc:
+            self.status = f"Bootstrap: {exc}"
+        finally:
+            self.busy = False
+        self._refresh()
+
+    def run_gradient_descent(self) -> None:
+        e = self.engine
+        if e is None:
+            return
+        d, lam = min(self.degree, e.max_degree), self.lam
+        try:
+            self.gd = core.gradient_descent(e.full, d, lam, learning_rate=self.gd_rate,
+                                            iterations=self.gd_iterations)
+            self.status = self.gd.message
+        except CurvewrightError as exc:
+            self.status = f"Gradient descent: {exc}"
+        self.version += 1
+
+    def compute_bias_variance(self) -> None:
+        """Expected-error split at the current setting, simulated from the fitted curve."""
+        if self.table is None or self.engine is None:
+            self.status = "The bias/variance split needs the rows."
+            return
+        from core.uncertainty import bias_variance
+
+        e = self.engine
+        d, lam = min(self.degree, e.max_degree), self.lam
+        if self.penalty != "ridge":
+            self.status = "The bias/variance split is computed for ridge (its predictions are linear in y)."
+            return
+        train = ~self._test
+        x = self._x[train]
+        theta = e.curve(d, lam)
+        truth = lambda v: legval(e.domain.map(np.asarray(v, float)), theta)  # noqa: E731
+        self.bias_var = bias_variance(x, truth, self.out["resid_sd"], d, lam, n_sets=300, seed=self.seed)
+        b = self.bias_var
+        self.status = (f"Simulated from this fit: bias^2 {b.bias2:.4g} + variance {b.variance:.4g} + noise "
+                       f"{b.noise:.4g} = expected MSE {b.expected_mse:.4g} at new x.")
+        self.version += 1
 
     def compute_learning_curve(self) -> None:
         e = self.engine
@@ -333,6 +483,7 @@ class Workbench(param.Parameterized):
         data = {"file": self._display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
                 "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
                 "x_unit": t.x.unit, "y_unit": t.y.unit}
+        data["excluded_rows"] = list(t.excluded_rows)
         return make_choice(self._x, self._y, self.surface, d, lam, rule=rule_of(self.surface, d, lam),
                            data=data, weights=w, weights_column=t.weight_column, notes=notes,
                            version=core.__version__, group_column=t.group_column,

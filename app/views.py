@@ -38,6 +38,8 @@ class Workspace(param.Parameterized):
         self.figs = f = plots.FigureSet(xl, yl)
         self.fit_fig, self.rx, self.ry, self.rh = f.fit_fig, f.rx, f.ry, f.rh
         self.fd, self.fl, self.fh, self.lc_fig = f.fd, f.fl, f.fh, f.lc_fig
+        self.gd_text = pn.pane.Markdown("Set a learning rate and press *Run gradient descent*: it starts from "
+                                        "zero coefficients and should settle on the closed-form cost.")
         self.status = pn.pane.Alert("", alert_type="light", sizing_mode="stretch_width", name="status")
         self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
         self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
@@ -93,6 +95,18 @@ class Workspace(param.Parameterized):
                                               sizing_mode="stretch_width")
         self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default")
         self.save_beside.on_click(self._save_beside)
+        self.penalty = pn.widgets.Select.from_param(s.param.penalty, label="Penalty", width=140)
+        self.mix = pn.widgets.FloatSlider.from_param(s.param.mix, label="Elastic-net L1 share", width=160)
+        self.exclude = pn.widgets.TextInput.from_param(s.param.exclude, label="Exclude rows (recorded)",
+                                                       placeholder="e.g. 11, 33", sizing_mode="stretch_width")
+        self.boot = pn.widgets.Button(label="Bootstrap band (200 refits)", color="default")
+        self.boot.on_click(lambda e: self._safe(s.bootstrap_band))
+        self.bv = pn.widgets.Button(label="Bias / variance split", color="default")
+        self.bv.on_click(lambda e: self._safe(s.compute_bias_variance))
+        self.gd_rate = pn.widgets.FloatInput.from_param(s.param.gd_rate, label="Learning rate", width=120)
+        self.gd_iter = pn.widgets.IntInput.from_param(s.param.gd_iterations, label="Steps", width=120)
+        self.gd_run = pn.widgets.Button(label="Run gradient descent", color="primary")
+        self.gd_run.on_click(lambda e: self._safe(s.run_gradient_descent))
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
         s.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
 
@@ -186,6 +200,9 @@ class Workspace(param.Parameterized):
                                    f"{core.describe_learning_curve(s.learning)}  \n"
                                    f"Computed for degree {s.learning.degree}, lambda {_fmt(s.learning.lam, 3)}.")
         self.numbers.object = self._numbers_md(s.out)
+        if s.gd is not None:
+            self.gd_text.object = ("**" + s.gd.message + "**" +
+                                   (f"  \nLargest stable rate for this design: about {s.gd.max_stable_rate:.3g}."))
 
     def _numbers_md(self, out) -> str:
         s = self.state
@@ -205,11 +222,27 @@ class Workspace(param.Parameterized):
         lines.append("| term | coefficient (raw x) |")
         lines.append("|---|---|")
         from core.basis import legendre_to_power
-        power = legendre_to_power(e.domain, out["theta"])
-        for k, a in enumerate(power):
-            lines.append(f"| {'1' if k == 0 else ('x' if k == 1 else f'x^{k}')} | {a:.10g} |")
+        if np.all(np.isfinite(out["theta"])):
+            power = legendre_to_power(e.domain, out["theta"])
+            for k, a in enumerate(power):
+                lines.append(f"| {'1' if k == 0 else ('x' if k == 1 else f'x^{k}')} | {a:.10g} |")
+        else:
+            lines.append("| – | not defined: this degree is too collinear for the chosen penalty |")
         lines.append("")
         lines.append("Standard errors and the exact least-squares numbers are in the export and `curvewright fit`.")
+        if s.penalty != "ridge":
+            lines.insert(2, f"Penalty: {s.penalty}" + (f" (L1 share {s.mix:g})" if s.penalty == "elastic" else ""))
+        infl = out.get("influential")
+        if infl is not None and infl.any():
+            rows = ", ".join(str(int(r)) for r in out["rows"][infl][:10])
+            lines.append(f"\n*Influential rows* (Cook's D > 4/n, common practice; purple in the residual plots): "
+                         f"{rows}. Check them; exclude one only with a reason (it is recorded).")
+        if s.table is not None and s.table.excluded_rows:
+            lines.append(f"\n*Excluded on request:* rows {', '.join(map(str, s.table.excluded_rows))}.")
+        if s.bias_var is not None:
+            b = s.bias_var
+            lines.append(f"\n*Expected error split* (simulated from the fit): bias² {b.bias2:.4g} + variance "
+                         f"{b.variance:.4g} + noise {b.noise:.4g} = {b.expected_mse:.4g}")
         for w in out.get("warnings", [])[:2]:
             lines.append(f"\n*Note:* {w}")
         return "\n".join(lines)
@@ -219,9 +252,10 @@ class Workspace(param.Parameterized):
         s = self.state
         controls = pn.Column(
             pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), self.wcol, self.apply_cols,
-            pn.pane.Markdown("#### Flexibility"), self.degree, self.lam,
+            pn.pane.Markdown("#### Flexibility"), self.degree, self.lam, pn.Row(self.penalty, self.mix),
             pn.pane.Markdown("#### Validation"), self.frac, pn.Row(self.folds, self.seed), self.test,
             pn.Row(self.rec_min), pn.Row(self.rec_1se), self.lc_button,
+            pn.pane.Markdown("#### Uncertainty and outliers"), pn.Row(self.boot, self.bv), self.exclude,
             pn.pane.Markdown("#### Sealed test and export"), self.reveal, self.confirm, self.confirm_btn,
             self.notes, self.download, self.report, self.save_beside,
             width=330, sizing_mode="fixed", styles={"background": "#f4f1ea", "padding": "6px"},
@@ -233,9 +267,11 @@ class Workspace(param.Parameterized):
         cx_tab = pn.Column(pn.Row(self.fd, self.fl, sizing_mode="stretch_width"), self.fh,
                            sizing_mode="stretch_width")
         lc_tab = pn.Column(self.lc_fig, self.lc_text, sizing_mode="stretch_width")
+        gd_tab = pn.Column(pn.Row(self.gd_rate, self.gd_iter, self.gd_run), self.figs.gd_fig, self.gd_text,
+                           sizing_mode="stretch_width")
         help_tab = pn.pane.Markdown(HELP, sizing_mode="stretch_width")
         tabs = pn.Tabs(("Curve & residuals", curve_tab), ("Error vs flexibility", cx_tab),
-                       ("Learning curve", lc_tab), ("How to read this", help_tab),
+                       ("Learning curve", lc_tab), ("Gradient descent", gd_tab), ("How to read this", help_tab),
                        dynamic=False, sizing_mode="stretch_width")
         header = pn.Row(pn.pane.Markdown("## curvewright · how flexible may this curve be?",
                                          styles={"color": plots.INK}), self.busy, sizing_mode="stretch_width")

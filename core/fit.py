@@ -18,7 +18,7 @@ import numpy as np
 from scipy.linalg import solve_triangular
 
 from .basis import Domain, legendre_columns, legendre_cov_to_power_se, legendre_to_power, legval
-from .errors import DataError, message
+from .errors import DataError, ParameterError, message
 from .moments import accumulate
 from .solve import FoldSolver, check_degree, check_lambdas
 from .validate import check_xyw
@@ -288,6 +288,11 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         else:
             th, df = penalized_coefficients([solver], degree, np.array([lam]), mix_)
             theta, edf = th[0, 0], float(df[0, 0])
+            if not np.all(np.isfinite(theta)):
+                raise ParameterError(message(f"Degree {degree} with the {penalty} penalty",
+                                             "standardized powers that are not collinear to working precision",
+                                             "a condition number above 1e14",
+                                             "Use a lower degree or the ridge penalty"))
         theta[0] += solver.offset
         legendre = theta
         r = y - legval(domain.map(x), legendre)

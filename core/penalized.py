@@ -79,7 +79,10 @@ def coordinate_descent(G, c, lam, mix, *, tol=1e-13, max_sweeps=20000):
     return b, done
 
 
-def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=500):
+MAX_CONDITION = 1e14
+
+
+def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=100):
     """Exact solution of one problem by feature-sign search. Returns (b, converged)."""
     d = c.size
     thr = lam * mix / 2.0
@@ -138,6 +141,11 @@ def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=500):
     return x, False
 
 
+def _condition(sv, degree) -> float:
+    s = sv._prepare(degree).s
+    return float((s.max() / s.min()) ** 2) if s.size and s.min() > 0 else float("inf")
+
+
 def _standardized(sv, degree):
     f = sv._prepare(degree)
     s2 = f.s ** 2
@@ -158,6 +166,13 @@ def penalized_coefficients(solvers, degree: int, lams, mix: float):
             out[i, :, 0] = sv._ycw if sv.intercept else 0.0
         return out, edf
     probs = [_standardized(sv, degree) for sv in solvers]
+    worst = max(_condition(sv, degree) for sv in solvers)
+    if worst > MAX_CONDITION:
+        warnings.warn(
+            f"The standardized powers up to degree {degree} are collinear (condition number {worst:.1e}): "
+            f"the {'lasso' if mix == 1 else 'elastic net'} is not well defined in double precision there, "
+            "so that degree is left out (NaN); use a lower degree or ridge.", NumericalWarning, stacklevel=3)
+        return np.full((F, nl, degree + 1), np.nan), np.full((F, nl), np.nan)
     b = np.zeros((F * nl, degree))
     ok = np.ones(F * nl, dtype=bool)
     for i, (Gi, ci, _) in enumerate(probs):

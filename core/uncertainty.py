@@ -87,6 +87,9 @@ def bootstrap_interval(x, y, degree: int, lam: float, grid, *, interval: str = "
     f = _fit(x, y, degree, lam, weights=weights, intercept=intercept, penalty=penalty, mix=mix)
     curves = bootstrap_curves(x, y, degree, lam, grid, B=B, seed=seed, weights=weights, groups=groups,
                               intercept=intercept, penalty=penalty, mix=mix)
+    if curves.shape[0] < 20:
+        raise ParameterError(message("Bootstrap", f"at least 20 of the {B} resamples to be fitted",
+                                     curves.shape[0], "Lower the degree, or use ridge at this degree"))
     yhat = f.predict(grid)
     a = (1 - level) / 2
     if interval == "confidence":

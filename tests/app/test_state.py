@@ -111,3 +111,42 @@ def test_sessions_are_independent():
     a, b = Workbench(FURNACE), Workbench(FURNACE)
     a.degree = 8
     assert b.degree == 3 and b.out["degree"] == 3
+
+
+def test_penalty_switch_equals_core_lasso(wb):
+    """Switching to the lasso: the live curve equals core.fit(penalty="lasso") on the training rows."""
+    wb.penalty = "lasso"
+    wb.degree, wb.log_lambda = 3, -1.0
+    x, y = training_rows(wb)
+    ref = core.fit(x, y, 3, 0.1, penalty="lasso")
+    np.testing.assert_allclose(wb.out["curve"], ref.predict(wb.out["grid"]), rtol=1e-8)
+    assert wb.choice().doc["model"]["penalty"] == "lasso"
+
+
+def test_interval_band_at_lambda_zero_equals_core(wb):
+    wb.log_lambda = LOG_LAMBDA_OFF
+    x, y = training_rows(wb)
+    _, lo, hi = core.fit(x, y, wb.degree, 0.0).predict(wb.out["grid"], interval="prediction")
+    np.testing.assert_allclose(wb.out["interval"][0], lo, rtol=1e-9)
+    assert wb.out["influential"].any()          # the invented outliers are flagged
+
+
+def test_excluded_rows_are_recorded(wb):
+    wb.exclude = "11, 33"
+    assert wb.table.n == 58 and wb.choice().doc["data"]["excluded_rows"] == [11, 33]
+    wb.exclude = "999"
+    assert "Could not exclude row 999" in wb.status
+
+
+def test_bootstrap_band_and_gradient_descent_from_the_page(wb):
+    wb.degree, wb.log_lambda = 2, 0.0
+    assert wb.out["interval"] is None
+    wb.bootstrap_band(B=60)
+    lo, hi = wb.out["interval"]
+    assert np.all(hi > lo)
+    wb.degree, wb.gd_rate, wb.gd_iterations = 1, 0.9, 3000
+    wb.run_gradient_descent()
+    assert not wb.gd.diverged and wb.gd.cost[-1] == pytest.approx(wb.gd.closed_form_cost, rel=1e-8)
+    wb.gd_rate = 5.0
+    wb.run_gradient_descent()
+    assert wb.gd.diverged and "too large" in wb.status
