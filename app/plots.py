@@ -84,7 +84,7 @@ def make_residual_figures(x_label: str, y_label: str):
 def make_complexity_figures():
     src = {
         "deg": ColumnDataSource({"degree": [], "cv": [], "train": [], "lo": [], "hi": []}, name="by_degree"),
-        "lam": ColumnDataSource({"lam": [], "cv": [], "train": [], "lo": [], "hi": []}, name="by_lambda"),
+        "lam": ColumnDataSource({"lam": [], "cv": [], "train": [], "lo": [], "hi": [], "gcv": []}, name="by_lambda"),
         "deg_now": ColumnDataSource({"x": [], "y": []}, name="degree_marker"),
         "lam_now": ColumnDataSource({"x": [], "y": []}, name="lambda_marker"),
         "deg_rec": ColumnDataSource({"x": [], "y": [], "rule": []}, name="degree_recommended"),
@@ -100,6 +100,9 @@ def make_complexity_figures():
         f.scatter(xk, "cv", source=src[key], color=CV_LINE, size=4)
         f.add_layout(Whisker(base=xk, upper="hi", lower="lo", source=src[key], line_color=CV_LINE,
                              upper_head=None, lower_head=None))
+        if key == "lam":
+            f.line(xk, "gcv", source=src[key], color=ASIDE, line_width=1.5, line_dash="dotted",
+                   legend_label="GCV (all rows)")
         f.legend.location = "top_center"
         f.legend.orientation = "horizontal"
         f.legend.label_text_font_size = "8pt"
@@ -175,7 +178,8 @@ def complexity_columns(out: dict) -> tuple[dict, dict]:
     lo, hi = _err(bd["cv"], se_d)
     lo2, hi2 = _err(bl["cv"], se_l)
     return ({"degree": bd["degree"], "cv": bd["cv"], "train": bd["train"], "lo": lo, "hi": hi},
-            {"lam": bl["lam"], "cv": bl["cv"], "train": bl["train"], "lo": lo2, "hi": hi2})
+            {"lam": bl["lam"], "cv": bl["cv"], "train": bl["train"], "lo": lo2, "hi": hi2,
+             "gcv": bl.get("gcv", np.full(len(bl["lam"]), np.nan))})
 
 
 def heat_columns(surface) -> dict:

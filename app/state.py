@@ -91,6 +91,7 @@ class Workbench(param.Parameterized):
             return False
         self.stats_meta = meta
         self.table = None
+        self._loo = None
         self._display_name = Path(path).name
         self.engine = engine
         self.surface = core.surface_from_engine(engine, [d for d in SEARCH_DEGREES if d <= engine.max_degree],
@@ -276,6 +277,12 @@ class Workbench(param.Parameterized):
             pad = 0.05 * (hi - lo)
             self._grid = np.linspace(lo - pad, hi + pad, 400)
             self.learning = None
+            self._loo = None
+            if xs.size - int(engine.n_test) <= 50_000:
+                from core.loo import LooEngine
+
+                w_keep = np.ones(xs.size) if w is None else w[keep]
+                self._loo = LooEngine(engine, xs, y[keep], w_keep)
             self.data_version += 1
             if caught:
                 self.status = str(caught[0].message)
@@ -355,8 +362,21 @@ class Workbench(param.Parameterized):
         rows = self._row_numbers[shown] if self._row_numbers is not None else np.zeros(xs.size, dtype=int)
         lam_axis = LAMBDA_GRID
         by_lam = e.cv_summary(d, lam_axis)
+        n_tr = e.n_train
+        with np.errstate(divide="ignore", invalid="ignore"):
+            gcv_axis = e.train_mse_all(d, LAMBDA_GRID) / (1.0 - e.effective_df(d, LAMBDA_GRID) / n_tr) ** 2 \
+                if self.penalty == "ridge" else np.full(LAMBDA_GRID.size, np.nan)
+            gcv = train_mse / (1.0 - dfe / n_tr) ** 2
+        loo = None
+        if getattr(self, "_loo", None) is not None and self.penalty == "ridge":
+            try:
+                loo = self._loo.cv_mean(d, lam)
+            except CurvewrightError:
+                loo = None
         self.out = {
-            "degree": d, "lam": lam, "theta": theta,
+            "degree": d, "lam": lam, "theta": theta, "gcv_mse": float(gcv), "loo_mse": loo,
+            "reduced_chi_square": (train_mse * float(e.full_stats[0, 0]) / max(n_tr - dfe, 1.0)
+                                   if self.table is not None and self.table.weight_kind == "uncertainty" else None),
             "grid": self._grid, "curve": legval(t_grid, theta), "band": band,
             "x": xs, "y": ys, "test": test, "aside_x": self._x_aside, "aside_y": self._y_aside, "fitted": fitted, "resid": resid,
             "resid_sd": sd, "train_rmse": math.sqrt(train_mse), "effective_df": dfe,
@@ -366,7 +386,7 @@ class Workbench(param.Parameterized):
                           "cv": np.array([b[0][0] for b in by_degree]),
                           "se": np.array([b[1][0] for b in by_degree]),
                           "train": np.array([b[2][0] for b in by_degree])},
-            "by_lambda": {"lam": lam_axis, "cv": by_lam[0], "se": by_lam[1], "train": by_lam[2]},
+            "by_lambda": {"lam": lam_axis, "cv": by_lam[0], "se": by_lam[1], "train": by_lam[2], "gcv": gcv_axis},
         }
 
     # ---- actions -----------------------------------------------------------------

@@ -72,6 +72,7 @@ class Workspace(param.Parameterized):
         self.xcol = pn.widgets.Select(label="x column", options=cols, value=s.x_column or cols[0], width=150)
         self.ycol = pn.widgets.Select(label="y column", options=cols, value=s.y_column or cols[-1], width=150)
         self.wcol = pn.widgets.Select(label="weights (optional)", options=[""] + cols, value=s.weight_column, width=150)
+        self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="that column holds", width=150)
         self.apply_cols = pn.widgets.Button(label="Use these columns", color="default")
         self.apply_cols.on_click(lambda e: self._safe(lambda: s.select_columns(self.xcol.value, self.ycol.value,
                                                                                   self.wcol.value)))
@@ -212,6 +213,13 @@ class Workspace(param.Parameterized):
         lines = [f"### Degree {out['degree']}, lambda {_fmt(out['lam'], 4)}", "",
                  f"CV RMSE **{_fmt(cv_rmse)}** ± {_fmt(se_rmse, 2)} · training RMSE {_fmt(out['train_rmse'])} · "
                  f"effective df {_fmt(out['effective_df'], 4)} · rows: {e.n_train} for CV, {e.n_test} sealed", ""]
+        extra = [f"GCV {_fmt(out.get('gcv_mse'))}"]
+        if out.get("loo_mse") is not None:
+            extra.append(f"leave-one-out MSE {_fmt(out['loo_mse'])} (one standardization for all rows)")
+        if out.get("reduced_chi_square") is not None:
+            extra.append(f"reduced chi-square {_fmt(out['reduced_chi_square'], 4)} (near 1 when the curve and the "
+                         "stated uncertainties agree)")
+        lines.extend([" · ".join(extra), ""])
         sealed = s.surface.sealed
         if sealed.revealed:
             lines.append(f"Sealed test RMSE **{_fmt(math.sqrt(sealed.mse))}** (revealed {sealed.revealed_at} "
@@ -251,7 +259,7 @@ class Workspace(param.Parameterized):
     def panel(self):
         s = self.state
         controls = pn.Column(
-            pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), self.wcol, self.apply_cols,
+            pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), pn.Row(self.wcol, self.wkind), self.apply_cols,
             pn.pane.Markdown("#### Flexibility"), self.degree, self.lam, pn.Row(self.penalty, self.mix),
             pn.pane.Markdown("#### Validation"), self.frac, pn.Row(self.folds, self.seed), self.test,
             pn.Row(self.rec_min), pn.Row(self.rec_1se), self.lc_button,

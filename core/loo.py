@@ -10,7 +10,8 @@ the intercept free and the centred Legendre block Pc = R'R-factorized as in
     h_ii = w_i (1 / W + sum_j M_ij^2 s_j^2 / (s_j^2 + lambda)),  M = Pc R^-1 U,
 
 so every lambda costs O(n d) once M is formed (O(n d^2) per degree). The score is
-the mean of squared LOO residuals (each row is its own fold).
+the weighted mean of squared LOO residuals, sum w e_(i)^2 / sum w (each row is its
+own fold; with unit weights the plain mean).
 """
 
 from __future__ import annotations
@@ -94,7 +95,8 @@ class LooEngine:
         h = self.w[:, None] * h
         loo = e / (1.0 - h)
         tr = (np.sum(self.w[:, None] * e * e, axis=0) / np.sum(self.w))[None, :] if train else None
-        return loo * loo, tr
+        # weight each row's loss by w_i / mean(w), so the mean over rows is sum w e^2 / sum w
+        return (self.w / self.w.mean())[:, None] * loo * loo, tr
 
     def cv_summary(self, degree, lams):
         from .select import fold_mean_se

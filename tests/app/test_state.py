@@ -150,3 +150,17 @@ def test_bootstrap_band_and_gradient_descent_from_the_page(wb):
     wb.gd_rate = 5.0
     wb.run_gradient_descent()
     assert wb.gd.diverged and "too large" in wb.status
+
+
+def test_loo_gcv_and_reduced_chi_square_in_the_page():
+    """Invented thermistor set with standard uncertainties: the page's reduced chi-square equals
+    core.fit's, its LOO equals core.sweep(folds='loo') on the same rows."""
+    wb = Workbench(ROOT / "sample_sets" / "thermistor_bench.csv", weight_kind="uncertainty",
+                   weight_column="u_resistance [ohm]")
+    wb.degree, wb.log_lambda = 6, LOG_LAMBDA_OFF
+    rows = np.flatnonzero(wb._keep)[~wb.engine.plan.test_mask]
+    x, y, w = wb.table.x.values[rows], wb.table.y.values[rows], wb.table.weights[rows]
+    assert wb.out["reduced_chi_square"] == pytest.approx(core.fit(x, y, 6, weights=w).reduced_chi_square, rel=1e-8)
+    loo = core.sweep(x, y, [6], [0.0], folds="loo", weights=w)
+    assert wb.out["loo_mse"] == pytest.approx(loo.cv_mse[0, 0], rel=1e-9)
+    assert wb.out["gcv_mse"] > 0
