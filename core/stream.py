@@ -158,15 +158,14 @@ def _columns(names, offset, frame, decimal, fname, missing):
         raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
                                 f"{len(rows)} row(s) with empty cells in this part of the file",
                                 "Fill them in, or pass --missing drop to leave those rows out"))
+    from .table import check_positive
+
     keep = ~miss
     out = {r: v[keep] for r, v in vals.items()}
-    for role, what in (("weights", "a positive weight"), ("uncertainty", "a positive uncertainty")):
+    rows = np.flatnonzero(keep) + offset + 2
+    for role in ("weights", "uncertainty"):
         if role in out:
-            bad = np.flatnonzero(out[role] <= 0)
-            if bad.size:
-                row = int(np.flatnonzero(keep)[bad[0]] + offset + 2)
-                raise DataError(message(f"File '{fname}' column '{names[role]}' row {row}", what,
-                                        f"{out[role][bad[0]]:g}"))
+            check_positive(out[role], role, names[role], fname, rows)
     w = out.get("weights")
     if "uncertainty" in out:
         w = 1.0 / out["uncertainty"] ** 2

@@ -68,6 +68,20 @@ class Table:
                 "rows": self.n, "x_min": float(xv.min()), "x_max": float(xv.max())}
 
 
+_POSITIVE = {"weights": ("a positive weight", "Drop the row or give it a positive weight"),
+             "uncertainty": ("a positive uncertainty", "Uncertainties must be > 0 (weight = 1/u^2)")}
+
+
+def check_positive(values: np.ndarray, role: str, column: str, fname: str, rows: np.ndarray) -> np.ndarray:
+    """Weights or uncertainties must be > 0; the message names the spreadsheet row."""
+    bad = np.flatnonzero(values <= 0)
+    if bad.size:
+        what, fix = _POSITIVE[role]
+        raise DataError(message(f"File '{fname}' column '{column}' row {int(rows[bad[0]])}", what,
+                                f"{values[bad[0]]:g}", fix))
+    return values
+
+
 def exclude_rows(table: "Table", rows) -> "Table":
     """The table without the given spreadsheet rows (header = row 1); recorded, never silent.
 
@@ -282,23 +296,12 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     yv = numeric["y"][0][keep] if "y" in numeric else None
     w = None
     wname = None
-    if "weights" in numeric:
-        w = numeric["weights"][0][keep]
-        wname = chosen["weights"]
-        bad = np.flatnonzero(w <= 0)
-        if bad.size:
-            row = int(np.flatnonzero(keep)[bad[0]] + 2)
-            raise DataError(message(f"File '{fname}' column '{wname}' row {row}", "a positive weight",
-                                    f"{w[bad[0]]:g}", "Drop the row or give it a positive weight"))
-    if "uncertainty" in numeric:
-        u = numeric["uncertainty"][0][keep]
-        wname = chosen["uncertainty"]
-        bad = np.flatnonzero(u <= 0)
-        if bad.size:
-            row = int(np.flatnonzero(keep)[bad[0]] + 2)
-            raise DataError(message(f"File '{fname}' column '{wname}' row {row}", "a positive uncertainty",
-                                    f"{u[bad[0]]:g}", "Uncertainties must be > 0 (weight = 1/u^2)"))
-        w = 1.0 / u ** 2
+    rows = np.flatnonzero(keep) + 2
+    for role in ("weights", "uncertainty"):
+        if role in numeric:
+            wname = chosen[role]
+            v = check_positive(numeric[role][0][keep], role, wname, fname, rows)
+            w = v if role == "weights" else 1.0 / v ** 2
     if require_spread and np.unique(xv).size < 2:
         raise DataError(message(f"File '{fname}' column '{chosen['x']}'", "at least two distinct x values",
                                 f"only {float(xv[0])!r}", "A curve cannot be fitted against a single x value"))
