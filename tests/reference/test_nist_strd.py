@@ -18,7 +18,7 @@ import pytest
 import core
 
 HERE = Path(__file__).parent / "nist_strd"
-SETS = ["Norris", "Pontius", "NoInt1", "NoInt2", "Wampler1", "Wampler2", "Wampler3", "Filip"]
+SETS = ["Norris", "Pontius", "NoInt1", "NoInt2", "Wampler1", "Wampler2", "Wampler3", "Wampler4", "Wampler5", "Filip"]
 
 
 def lre(estimate: float, certified: float) -> float:
