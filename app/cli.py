@@ -94,6 +94,8 @@ def build_parser() -> argparse.ArgumentParser:
     f.add_argument("--influence", action="store_true", help="list influential rows (lambda = 0: Cook's D > 4/n)")
     f.add_argument("--bias-variance", action="store_true",
                    help="split the expected error into bias^2, variance and noise, simulated from this fit")
+    f.add_argument("--replicates", help="column naming repeated data sets (runs): --bias-variance then "
+                   "estimates variance from them instead of simulating")
     f.add_argument("--json", help="write the fit as JSON here")
     f.add_argument("--force", action="store_true", help="overwrite an existing output file")
 
@@ -262,7 +264,19 @@ def cmd_fit(args, out):
             print(f"influential rows (Cook's D > 4/n = {inf.threshold:.3g}, common practice): "
                   + (", ".join(f"row {int(n)} (D {inf.cooks_distance[i]:.3g}, studentized {inf.studentized[i]:.2f})"
                                for n, i in zip(rows, inf.flagged)) or "none"), file=out)
-    if args.bias_variance:
+    if args.bias_variance and args.replicates:
+        from core.table import read_table as _rt
+        from core.uncertainty import bias_variance_from_sets
+
+        rt = _rt(args.data, x=args.x, y=args.y, group=args.replicates, missing=args.missing, sheet=args.sheet)
+        sets = [(rt.x.values[rt.groups == g], rt.y.values[rt.groups == g]) for g in np.unique(rt.groups)]
+        grid = np.linspace(rt.x.values.min(), rt.x.values.max(), 101)
+        est = bias_variance_from_sets(sets, args.degree, args.lam, grid, intercept=not args.no_intercept,
+                                      penalty=args.penalty, mix=args.mix)
+        print(f"from {est['n_sets']} repeated data sets ('{args.replicates}'): variance {est['variance']:.4g}, "
+              f"noise {est['noise']:.4g}; bias^2 needs the true curve (not estimable from replicates alone)",
+              file=out)
+    elif args.bias_variance:
         from core.uncertainty import bias_variance
 
         bv = bias_variance(t.x.values, r.predict, r.residual_sd, args.degree, args.lam, weights=t.weights,

@@ -28,7 +28,7 @@ from .penalized import check_penalty, penalized_coefficients
 from .solve import FoldSolver, check_degree, check_lambdas
 from .validate import check_xyw
 
-__all__ = ["bootstrap_curves", "bootstrap_interval", "bias_variance", "BiasVariance"]
+__all__ = ["bootstrap_curves", "bootstrap_interval", "bias_variance", "bias_variance_from_sets", "BiasVariance"]
 
 
 def _design(x, y, w, degree, domain):
@@ -188,3 +188,29 @@ def bias_variance(x, truth, noise_sd: float, degree: int, lam: float, grid=None,
     sim_var = float(np.mean(pred.var(axis=1, ddof=1)))
     return BiasVariance(float(np.mean(bias ** 2)), float(np.mean(var)), float(noise_sd ** 2), sim_bias2,
                         sim_var, int(n_sets), {"grid": grid, "bias2": bias ** 2, "variance": var})
+
+
+def bias_variance_from_sets(sets, degree: int, lam: float, grid, *, truth=None, intercept: bool = True,
+                            penalty: str = "ridge", mix: float = 0.5) -> dict:
+    """The split estimated from repeated data sets the user supplies (e.g. replicate runs).
+
+    Each set (x, y) is fitted separately; at each grid point the variance is the spread of
+    the sets' predictions (ddof = 1) and the noise the mean of the sets' residual variances.
+    Bias needs the true curve: with ``truth`` (a callable) bias^2 is (mean prediction - truth)^2,
+    without it bias^2 is reported as None (it cannot be told apart from the truth itself).
+    """
+    sets = list(sets)
+    if len(sets) < 2:
+        raise ParameterError(message("Repeated data sets", "at least 2", len(sets)))
+    grid = np.asarray(grid, dtype=float)
+    preds, noise = [], []
+    for xs, ys in sets:
+        f = _fit(xs, ys, degree, lam, intercept=intercept, penalty=penalty, mix=mix)
+        preds.append(f.predict(grid))
+        noise.append(f.residual_sd ** 2)
+    P = np.array(preds)
+    out = {"n_sets": len(sets), "variance": float(np.mean(P.var(axis=0, ddof=1))), "noise": float(np.mean(noise)),
+           "bias2": None}
+    if truth is not None:
+        out["bias2"] = float(np.mean((P.mean(axis=0) - np.asarray(truth(grid), dtype=float)) ** 2))
+    return out
