@@ -44,7 +44,7 @@ def make_fit_figure(x_label: str, y_label: str):
     }
     f = _fig("Fitted curve", x_label, y_label)
     f.varea("x", "lo", "hi", source=src["interval"], color=INK, alpha=0.10,
-            legend_label="95% prediction interval (t-based at lambda = 0, else bootstrap on request)")
+            legend_label="95% prediction interval")
     f.multi_line("xs", "ys", source=src["band"], color=BAND, alpha=0.55, line_width=1,
                  legend_label="refit on each fold's training rows")
     f.scatter("x", "y", source=src["points"], size=6, color=FIT_ROWS, alpha=0.75, legend_label="rows in the fit")

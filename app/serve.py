@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import threading
 from pathlib import Path
 
 import panel as pn
@@ -13,9 +14,37 @@ SAMPLE = Path(__file__).resolve().parents[1] / "sample_sets" / "furnace_yield.cs
 
 
 def build_page(path=None, stats=None):
-    """A fresh state and page for one browser session."""
-    state = Workbench(None if stats else (path or SAMPLE), stats=stats)
-    return Workspace(state).panel()
+    """A fresh state and page for one browser session.
+
+    A file large enough to be streamed is loaded after the page is shown, in a thread,
+    so the page's progress bar can follow it.
+    """
+    big = (path is not None and stats is None and Path(path).is_file()
+           and Path(path).suffix.lower() in (".csv", ".tsv", ".txt", ".parquet")
+           and Path(path).stat().st_size > Workbench.stream_bytes)
+    state = Workbench(None if (stats or big) else (path or SAMPLE), stats=stats)
+    page = Workspace(state).panel()
+    if big:
+        state.status = f"Streaming {Path(path).name} into the statistics..."
+        doc = pn.state.curdoc
+
+        def load():
+            # the pass runs in a thread (only progress is reported from there); the switch to
+            # the new statistics is handed back to the document's own thread
+            def run():
+                from core.errors import CurvewrightError
+
+                with pn.io.server.set_curdoc(doc):
+                    try:
+                        args = state.stream_engine(path)
+                    except CurvewrightError as exc:
+                        msg = f"Could not load {Path(path).name}: {exc}"
+                        doc.add_next_tick_callback(lambda: setattr(state, "status", msg))
+                        return
+                doc.add_next_tick_callback(lambda: state.finish_stream(*args))
+            threading.Thread(target=run, daemon=True).start()
+        pn.state.onload(load)
+    return page
 
 
 def serve(path=None, *, port: int = 5006, show: bool = True, address: str = "127.0.0.1",

@@ -56,6 +56,8 @@ class Workbench(param.Parameterized):
     gd_rate = param.Number(0.5, bounds=(1e-6, 10.0), doc="gradient-descent learning rate")
     gd_iterations = param.Integer(500, bounds=(1, 100000))
     status = param.String("")
+    progress = param.Number(0.0, bounds=(0.0, 1.0), doc="share of rows done while streaming a large file")
+    progress_text = param.String("")
     busy = param.Boolean(False)
     version = param.Integer(0, doc="bumped after every recompute; views watch it")
     data_version = param.Integer(0, doc="bumped when data or folds change")
@@ -80,6 +82,48 @@ class Workbench(param.Parameterized):
         elif path is not None:
             self.load_path(path)
 
+    def _load_streamed(self, p: Path, name=None) -> bool:
+        try:
+            args = self.stream_engine(p, name)
+        except CurvewrightError as exc:
+            self.status = f"Could not load {name or p.name}: {exc}"
+            return False
+        return self.finish_stream(*args)
+
+    def stream_engine(self, p: Path, name=None):
+        """The slow part of a streamed load (safe to run in a thread: it only sets progress).
+
+        Returns the arguments of ``finish_stream``; raises CurvewrightError.
+        """
+        import time as _time
+
+        from core.stream import iter_chunks, sweep_file
+
+        p = Path(p)
+        label = name or p.name
+        names = next(iter_chunks(p, {"x": self.x_column or 1, "y": self.y_column or 2}, chunk_rows=2))[0]
+        t0 = _time.perf_counter()
+
+        def progress(done, total, secs):
+            rate = done / secs if secs > 0 else 0.0
+            left = (total - done) / rate if rate > 0 else 0.0
+            self.progress = done / max(total, 1)
+            self.progress_text = f"{label}: {done:,} of {total:,} rows, {rate:,.0f} rows/s, {left:.0f} s left"
+
+        surface, scan = sweep_file(p, list(range(0, 16)), np.concatenate([[0.0], LAMBDA_GRID]),
+                                   x=names["x"], y=names["y"], weights=self.weight_column or None,
+                                   folds=self.folds, seed=self.seed, test_fraction=self.test_fraction,
+                                   missing="drop", progress=progress)
+        meta = {"file": label, "x_column": scan.x_name, "y_column": scan.y_name, "columns_sha256": scan.columns_sha256}
+        note = f"{label}: {scan.rows_used:,} rows streamed into the statistics in {_time.perf_counter() - t0:.1f} s"
+        return surface.engine, meta, label, note
+
+    def finish_stream(self, engine, meta, label, note) -> bool:
+        """Switch the page to the streamed statistics (run on the page's own thread)."""
+        self._use_engine(engine, meta, label)
+        self.progress_text = note
+        return True
+
     def load_stats(self, path) -> bool:
         """Explore a sweep saved as statistics (no rows: no scatter, fixed folds)."""
         from core.statsfile import load_stats
@@ -89,6 +133,11 @@ class Workbench(param.Parameterized):
         except CurvewrightError as exc:
             self.status = f"Could not load {Path(path).name}: {exc}"
             return False
+        return self._use_engine(engine, meta, Path(path).name)
+
+    def _use_engine(self, engine, meta: dict, label: str) -> bool:
+        """Work from statistics alone (a statistics file or a streamed large file)."""
+        path = label
         self.stats_meta = meta
         self.table = None
         self._loo = None
@@ -106,16 +155,26 @@ class Workbench(param.Parameterized):
         c, h = engine.domain.center, engine.domain.half_width
         self._grid = np.linspace(c - 1.05 * h, c + 1.05 * h, 400)
         self.learning = None
-        self.status = (f"Loaded statistics {Path(path).name}: {engine.n_train:,} rows for CV, "
+        self.status = (f"Loaded statistics of {label}: {engine.n_train:,} rows for CV, "
                        f"{engine.n_test:,} sealed (no rows: folds are fixed, points are not drawn).")
         self.data_version += 1
         self._refresh()
         return True
 
     # ---- data -----------------------------------------------------------------
+    stream_bytes = 100 * 2**20     # larger CSV/Parquet files are streamed into statistics
+
     def load_path(self, path, name=None) -> bool:
-        """Load a file; on failure keep the previous data and report in ``status``."""
-        import pandas as pd  # noqa: F401  (reader dependency)
+        """Load a file; on failure keep the previous data and report in ``status``.
+
+        Files above ``stream_bytes`` are streamed chunk by chunk into the statistics with a
+        progress report (rows done, rate, time left); the page then works from the statistics
+        (no scatter points), like a statistics file.
+        """
+        p = Path(path)
+        if p.is_file() and p.suffix.lower() in (".csv", ".tsv", ".txt", ".parquet") and \
+                p.stat().st_size > self.stream_bytes:
+            return self._load_streamed(p, name)
         try:
             frame_cols = self._columns_of(path)
             x = self.x_column if self.x_column in frame_cols else frame_cols[0]

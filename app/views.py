@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import threading
 import json
 import math
 from pathlib import Path
@@ -108,6 +109,11 @@ class Workspace(param.Parameterized):
         self.gd_iter = pn.widgets.IntInput.from_param(s.param.gd_iterations, label="Steps", width=120)
         self.gd_run = pn.widgets.Button(label="Run gradient descent", color="primary")
         self.gd_run.on_click(lambda e: self._safe(s.run_gradient_descent))
+        self.progress = pn.indicators.Progress(value=0, max=1000, visible=False, sizing_mode="stretch_width",
+                                               name="progress")
+        self.progress_text = pn.pane.Str("", visible=False)
+        self._doc, self._thread = pn.state.curdoc, threading.get_ident()
+        s.param.watch(self._on_progress, ["progress", "progress_text"])
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
         s.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
 
@@ -118,6 +124,20 @@ class Workspace(param.Parameterized):
             self.state.status = str(exc)
 
     # ---- events -------------------------------------------------------------------
+    def _on_progress(self, *_):
+        if threading.get_ident() != self._thread and self._doc is not None:
+            self._doc.add_next_tick_callback(self._show_progress)    # from the loading thread
+            return
+        self._show_progress()
+
+    def _show_progress(self):
+        s = self.state
+        with pn.io.unlocked():
+            self.progress.value = int(1000 * s.progress)
+            self.progress.visible = 0 < s.progress < 1
+            self.progress_text.object = s.progress_text
+            self.progress_text.visible = bool(s.progress_text)
+
     def _on_upload(self, event):
         if not event.new:
             return
@@ -284,5 +304,6 @@ class Workspace(param.Parameterized):
         header = pn.Row(pn.pane.Markdown("## curvewright · how flexible may this curve be?",
                                          styles={"color": plots.INK}), self.busy, sizing_mode="stretch_width")
         caution = pn.pane.Alert(CAUTION, alert_type="warning", sizing_mode="stretch_width", name="caution")
-        return pn.Column(header, caution, self.status, pn.Row(controls, tabs, sizing_mode="stretch_width"),
+        return pn.Column(header, caution, self.status, self.progress, self.progress_text,
+                         pn.Row(controls, tabs, sizing_mode="stretch_width"),
                          sizing_mode="stretch_width")

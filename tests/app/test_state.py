@@ -164,3 +164,24 @@ def test_loo_gcv_and_reduced_chi_square_in_the_page():
     loo = core.sweep(x, y, [6], [0.0], folds="loo", weights=w)
     assert wb.out["loo_mse"] == pytest.approx(loo.cv_mse[0, 0], rel=1e-9)
     assert wb.out["gcv_mse"] > 0
+
+
+def test_large_file_streams_into_statistics_with_progress(tmp_path, monkeypatch):
+    """Above the size limit the page streams the file (progress: rows done, rate, time left) and
+    then works from the statistics; numbers equal core.stream.sweep_file's."""
+    from core.stream import sweep_file
+
+    rng = np.random.default_rng(3)
+    x = rng.uniform(0, 10, 30000)
+    p = tmp_path / "log.csv"
+    p.write_text("t [s],v [V]\n" + "".join(f"{a:.6f},{b:.6f}\n" for a, b in zip(x, np.sin(x) + 0.2 * rng.normal(size=x.size))))
+    monkeypatch.setattr(Workbench, "stream_bytes", 1000)
+    seen = []
+    wb = Workbench()
+    wb.param.watch(lambda e: seen.append(e.new), "progress_text")
+    assert wb.load_path(p)
+    assert any("rows/s" in t and "left" in t for t in seen) and "streamed into the statistics" in wb.progress_text
+    wb.degree, wb.log_lambda = 4, -2.0
+    ref, _ = sweep_file(p, range(0, 16), [1e-2], x=1, y=2, folds=10, seed=0, test_fraction=0.2)
+    assert wb.out["cv_mse"] == pytest.approx(ref.engine.cv_summary(4, [1e-2])[0][0], rel=1e-12)
+    assert wb.choice().doc["data"]["x_column"] == "t [s]"
