@@ -122,15 +122,20 @@ class Engine:
     def domain(self) -> Domain:
         return self.moments.domain
 
-    def scores(self, degree: int, lams, *, train: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
+    def scores(self, degree: int, lams, *, train: bool = True, full: bool = False):
         """Held-out and training MSE per fold: two arrays of shape (n_folds, len(lams))
-        (the second is None with ``train=False``)."""
+        (the second is None with ``train=False``). With ``full=True`` a third array, the
+        training MSE of the all-rows fit, shape (len(lams),), from the same solve."""
         lams = check_lambdas(lams)
-        theta = self._all_coefficients(check_degree(degree, self.max_degree), lams)[:-1]
+        every = self._all_coefficients(check_degree(degree, self.max_degree), lams)
+        theta = every[:-1]
         with np.errstate(invalid="ignore", divide="ignore"):
             wh = self._held[:, 0, 0][:, None]
             cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
             tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None] if train else None
+        if full:
+            whole = FoldSolver.sse(self.full_stats, every[-1]) / self.full_stats[0, 0]
+            return cv, tr, whole
         return cv, tr
 
     def _all_coefficients(self, degree: int, lams: np.ndarray) -> np.ndarray:
@@ -429,14 +434,16 @@ def surface_from_engine(engine: Engine, degrees, lambdas) -> Surface:
     cv = np.empty((nd, nl)); se = np.empty((nd, nl)); tr = np.empty((nd, nl))
     fold = np.empty((nd, nl, engine.n_folds)); edf = np.empty((nd, nl)); gcv = np.empty((nd, nl))
     for i, d in enumerate(degrees):
-        c, t = engine.scores(int(d), lams)
+        got = engine.scores(int(d), lams, full=True) if isinstance(engine, Engine) else None
+        c, t = got[:2] if got else engine.scores(int(d), lams)
         fold[i] = c.T
         cv[i], se[i] = fold_mean_se(c)
         tr[i] = t.mean(axis=0) if np.isfinite(t).all() else np.nanmean(t, axis=0)
         edf[i] = engine.effective_df(int(d), lams)
         # generalized cross-validation (Golub, Heath & Wahba 1979) on all training rows
         with np.errstate(divide="ignore", invalid="ignore"):
-            gcv[i] = engine.train_mse_all(int(d), lams) / (1.0 - edf[i] / engine.n_train) ** 2
+            whole = got[2] if got else engine.train_mse_all(int(d), lams)
+            gcv[i] = whole / (1.0 - edf[i] / engine.n_train) ** 2
     rec = _recommend(engine, degrees, lams, cv, se)
     sealed = SealedTest(engine.plan.test_fraction, engine.n_test)
     return Surface(degrees, lams, cv, se, tr, fold, edf, gcv, rec, engine.plan.to_dict(),
