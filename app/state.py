@@ -75,8 +75,6 @@ class Workbench(param.Parameterized):
         self.surface = None
         self.learning = None
         self.out: dict = {}
-        self._file_bytes = None
-        self._file_name = None
         if stats is not None:
             self.load_stats(stats)
         elif path is not None:
@@ -323,7 +321,6 @@ class Workbench(param.Parameterized):
             self.param.degree.bounds = (0, engine.max_degree)
             if self.degree > engine.max_degree:
                 self.degree = engine.max_degree
-            self.revealed = None
             xs = x[keep]
             self._x, self._y = xs, y[keep]
             self._row_numbers = None if t.row_numbers is None else t.row_numbers[keep]

@@ -17,7 +17,7 @@ from core.errors import CurvewrightError
 from core.files import write_atomic
 
 from . import plots
-from .state import LOG_LAMBDA_OFF, Workbench
+from .state import Workbench
 
 from .text import CAUTION, HELP  # noqa: E402
 
@@ -64,8 +64,6 @@ class Workspace(param.Parameterized):
         self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", width=90)
         self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction",
                                                       sizing_mode="stretch_width")
-        for w in (self.degree, self.lam):
-            w.param.update(throttled=False) if "throttled" in w.param else None
         self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", label="Data file",
                                            sizing_mode="stretch_width")
         self.upload.param.watch(self._on_upload, "value")

@@ -47,14 +47,20 @@ def expand_paths(spec) -> list[Path]:
     return files
 
 
-def _file_stats(path, offset, specs, missing, chunk_rows, acc_args):
-    """One file's statistics (a Dask task): returns the accumulator with its edge rows pending."""
-    acc = BlockAccumulator(**acc_args)
+def _file_stats(path, offset, specs, missing, chunk_rows, acc_args, acc=None, on_chunk=None):
+    """One file's statistics (a Dask task, or a step of the local engine given ``acc``).
+
+    Returns the accumulator, edge rows of partial blocks still pending. ``on_chunk(rows)`` is
+    called with the rows of the file done so far.
+    """
+    acc = BlockAccumulator(**acc_args) if acc is None else acc
     pos = offset
     for names, off, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
         xv, yv, w, _, _ = _columns(names, off, frame, decimal, Path(path).name, missing)
         acc.add_rows(pos, xv, yv, w)
         pos += xv.size
+        if on_chunk is not None:
+            on_chunk(pos - offset)
     return acc
 
 
@@ -149,13 +155,9 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
             acc = BlockAccumulator(**acc_args)
             done_rows = 0
             for p, off, sc in zip(paths, offsets[:-1], scans):
-                pos = int(off)
-                for names, o, frame, decimal in iter_chunks(p, specs, chunk_rows=chunk_rows):
-                    xv, yv, w, _, _ = _columns(names, o, frame, decimal, p.name, missing)
-                    acc.add_rows(pos, xv, yv, w)
-                    pos += xv.size
-                    if progress is not None:
-                        progress(done_rows + pos - int(off), total, time.perf_counter() - t0)
+                report = None if progress is None else \
+                    (lambda rows, base=done_rows: progress(base + rows, total, time.perf_counter() - t0))
+                _file_stats(p, int(off), specs, missing, chunk_rows, acc_args, acc=acc, on_chunk=report)
                 done_rows += sc.rows_used
     finally:
         if own_cluster is not None:

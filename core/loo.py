@@ -76,8 +76,9 @@ class LooEngine:
             self._M[degree] = M
         return M
 
-    def scores(self, degree: int, lams, *, train: bool = True):
-        """(squared LOO residual per row, training MSE): shapes (n, nl) and (1, nl)."""
+    def scores(self, degree: int, lams, *, train: bool = True, full: bool = False):
+        """(squared LOO residual per row, training MSE): shapes (n, nl) and (1, nl); with
+        ``full=True`` also the all-rows training MSE, shape (nl,) (as ``Engine.scores``)."""
         degree = check_degree(degree, self.max_degree)
         lams = check_lambdas(lams)
         sv = self.full
@@ -96,7 +97,8 @@ class LooEngine:
         loo = e / (1.0 - h)
         tr = (np.sum(self.w[:, None] * e * e, axis=0) / np.sum(self.w))[None, :] if train else None
         # weight each row's loss by w_i / mean(w), so the mean over rows is sum w e^2 / sum w
-        return (self.w / self.w.mean())[:, None] * loo * loo, tr
+        losses = (self.w / self.w.mean())[:, None] * loo * loo
+        return (losses, tr, tr[0]) if full else (losses, tr)
 
     def cv_summary(self, degree, lams):
         from .select import fold_mean_se

@@ -67,15 +67,6 @@ class Moments:
         return Moments(self.domain, self.max_degree, self.y_shift,
                        self.gram + other.gram, self.counts + other.counts)
 
-    def total(self, cells) -> tuple[np.ndarray, int]:
-        """Summed statistics and row count over the given cell indices (adds, never subtracts)."""
-        cells = np.asarray(cells, dtype=np.intp)
-        return self.gram[cells].sum(axis=0), int(self.counts[cells].sum())
-
-    def truncated(self, degree: int) -> np.ndarray:
-        """Index vector selecting P_0..P_degree and y from the augmented matrix."""
-        return np.r_[np.arange(degree + 1), self.max_degree + 1]
-
 
 def unshift(M: np.ndarray, y_shift: float) -> np.ndarray:
     """Statistics for the raw response from those of the shifted one.

@@ -85,16 +85,15 @@ class Engine:
         self.n_folds = k * R
         gram = moments.gram
         self.solvers: list[FoldSolver] = []
-        self.heldout: list[np.ndarray] = []
-        self.train_stats: list[np.ndarray] = []
+        held, train = [], []
         for r in range(R):
             blocks = gram[r * k:(r + 1) * k]
             for f, S in enumerate(_fold_sums(blocks)):
                 sv = FoldSolver(S, moments.domain, moments.y_shift, intercept,
                                 label=f"training rows of fold {f + 1}" + (f" (repeat {r + 1})" if R > 1 else ""))
                 self.solvers.append(sv)
-                self.heldout.append(sv.working(blocks[f]))
-                self.train_stats.append(sv.working(S))
+                held.append(sv.working(blocks[f]))
+                train.append(sv.working(S))
         all_train = gram[:k].sum(axis=0)
         self.full = FoldSolver(all_train, moments.domain, moments.y_shift, intercept,
                                label="training rows")
@@ -102,9 +101,8 @@ class Engine:
         self.test_stats = self.full.working(gram[R * k]) if moments.n_cells > R * k else None
         self.n_test = int(moments.counts[R * k]) if moments.n_cells > R * k else 0
         self.n_train = int(moments.counts[:k].sum())
-        self.fold_counts = moments.counts[: R * k].copy()
-        self._held = np.stack(self.heldout)
-        self._train = np.stack(self.train_stats)
+        self._held = np.stack(held)          # held-out statistics per fold (working coordinates)
+        self._train = np.stack(train)        # training statistics per fold
         self._batches: dict[int, FoldBatch] = {}
 
     def batch(self, degree: int) -> FoldBatch:
@@ -434,15 +432,13 @@ def surface_from_engine(engine: Engine, degrees, lambdas) -> Surface:
     cv = np.empty((nd, nl)); se = np.empty((nd, nl)); tr = np.empty((nd, nl))
     fold = np.empty((nd, nl, engine.n_folds)); edf = np.empty((nd, nl)); gcv = np.empty((nd, nl))
     for i, d in enumerate(degrees):
-        got = engine.scores(int(d), lams, full=True) if isinstance(engine, Engine) else None
-        c, t = got[:2] if got else engine.scores(int(d), lams)
+        c, t, whole = engine.scores(int(d), lams, full=True)
         fold[i] = c.T
         cv[i], se[i] = fold_mean_se(c)
         tr[i] = t.mean(axis=0) if np.isfinite(t).all() else np.nanmean(t, axis=0)
         edf[i] = engine.effective_df(int(d), lams)
         # generalized cross-validation (Golub, Heath & Wahba 1979) on all training rows
         with np.errstate(divide="ignore", invalid="ignore"):
-            whole = got[2] if got else engine.train_mse_all(int(d), lams)
             gcv[i] = whole / (1.0 - edf[i] / engine.n_train) ** 2
     rec = _recommend(engine, degrees, lams, cv, se)
     sealed = SealedTest(engine.plan.test_fraction, engine.n_test)

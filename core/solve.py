@@ -122,7 +122,6 @@ class FoldSolver:
         S = self.working(S)
         D = self.D
         self.W = float(S[0, 0])
-        self.n_weight = self.W
         s = S[0, :]
         self.mean = s / self.W
         T = _T(domain, D)
@@ -250,22 +249,6 @@ class FoldSolver:
         else:
             out[:, :] = theta_w
         return out
-
-    def standardized(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
-        """Coefficients on the standardized powers: (intercept, b) per lambda.
-
-        These are what scikit-learn's pipeline stores (``Ridge.coef_``), but
-        for the powers normalized column by column (see ``power_scales``).
-        They can be astronomically large for tiny lambda; predicting never needs them.
-        """
-        f = self._prepare(check_degree(degree, self.D))
-        lams = check_lambdas(lams)
-        s2 = f.s ** 2
-        with np.errstate(divide="ignore", invalid="ignore"):
-            inv = np.where(f.s > 0, f.s / (s2 + lams[:, None]), 0.0)
-        b = (inv * f.Uq) @ f.Vt
-        theta = self.coefficients(degree, lams)
-        return theta[:, 0], b
 
     def effective_df(self, degree: int, lams) -> np.ndarray:
         """sum s_j^2 / (s_j^2 + lambda) (ESL eq. 3.50), plus one for the intercept."""

@@ -30,7 +30,7 @@ from .folds import make_plan
 from .moments import Accumulator
 from .select import Engine, Surface, cell_labels, surface_from_engine
 from .solve import check_degree
-from .table import columns_digest, unit_of
+from .table import columns_digest, pick_column, text_format, unit_of
 
 __all__ = ["Scan", "scan_file", "sweep_file", "iter_chunks"]
 
@@ -71,24 +71,10 @@ def _sniff(path: Path):
         encoding = "latin-1"
         notices.append(f"File '{path.name}' is not UTF-8; read it as Latin-1.")
     text = head.decode(encoding, errors="ignore")
-    first = next((ln for ln in text.splitlines() if ln.strip()), "")
-    if not first:
+    if not text.strip():
         raise DataError(message(f"File '{path.name}'", "a header row and data rows", "an empty file"))
-    sep = max([",", ";", "\t"], key=first.count)
-    if first.count(sep) == 0:
-        sep = ","
-    decimal = "," if sep == ";" and re.search(r"\d,\d", text) else "."
+    sep, decimal = text_format(text)
     return encoding, sep, decimal, notices
-
-
-def _resolve(columns: list[str], spec, role: str, fname: str) -> str:
-    from .table import _pick
-
-    class _F:  # _pick only needs .columns
-        pass
-    f = _F()
-    f.columns = columns
-    return _pick(f, spec, role, fname)
 
 
 def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
@@ -107,7 +93,7 @@ def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
         except Exception as exc:  # pyarrow raises many unrelated types for a corrupt file
             raise DataError(message(f"File '{path.name}'", "a readable Parquet file", type(exc).__name__)) from None
         cols = list(pf.schema_arrow.names)
-        names = {r: _resolve(cols, s, r, path.name) for r, s in specs.items() if s is not None}
+        names = {r: pick_column(cols, s, r, path.name) for r, s in specs.items() if s is not None}
         offset = 0
         for batch in pf.iter_batches(batch_size=chunk_rows, columns=sorted(set(names.values()))):
             frame = batch.to_pandas()
@@ -120,13 +106,13 @@ def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
         frame, _, _ = _read_frame(path)
         cols = [str(c) for c in frame.columns]
         frame.columns = cols
-        names = {r: _resolve(cols, s, r, path.name) for r, s in specs.items() if s is not None}
+        names = {r: pick_column(cols, s, r, path.name) for r, s in specs.items() if s is not None}
         yield names, 0, frame, "."
         return
     encoding, sep, decimal, _ = _sniff(path)
     header = pd.read_csv(path, sep=sep, nrows=0, encoding=encoding)
     cols = [str(c) for c in header.columns]
-    names = {r: _resolve(cols, s, r, path.name) for r, s in specs.items() if s is not None}
+    names = {r: pick_column(cols, s, r, path.name) for r, s in specs.items() if s is not None}
     reader = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=False, encoding=encoding,
                          usecols=sorted(set(names.values())), chunksize=chunk_rows, skip_blank_lines=True)
     offset = 0

@@ -152,13 +152,7 @@ def _read_frame(path: Path, sheet=None):
     except UnicodeDecodeError:
         text = raw.decode("latin-1")
         notices.append(f"File '{path.name}' is not UTF-8; read it as Latin-1.")
-    first = next((ln for ln in text.splitlines() if ln.strip()), "")
-    sep = max([",", ";", "\t"], key=first.count)
-    if first.count(sep) == 0:
-        sep = ","
-    decimal = "."
-    if sep == ";" and re.search(r"\d,\d", text):
-        decimal = ","
+    sep, decimal = text_format(text)
     try:
         frame = pd.read_csv(io.StringIO(text), sep=sep, decimal=decimal, dtype=str,
                             keep_default_na=False, skip_blank_lines=True)
@@ -175,8 +169,20 @@ def _read_frame(path: Path, sheet=None):
     return frame, raw, notices
 
 
-def _pick(frame, spec, role: str, fname: str) -> str:
-    cols = [str(c) for c in frame.columns]
+def text_format(text: str) -> tuple[str, str]:
+    """Delimiter (the most frequent of , ; tab in the header line) and decimal mark
+    (a comma for ';' files whose numbers are written like 1,5)."""
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+    sep = max([",", ";", "\t"], key=first.count)
+    if first.count(sep) == 0:
+        sep = ","
+    decimal = "," if sep == ";" and re.search(r"\d,\d", text) else "."
+    return sep, decimal
+
+
+def pick_column(columns, spec, role: str, fname: str) -> str:
+    """The column meant by ``spec``: exact name, 1-based position, or bare name of 'name [unit]'."""
+    cols = [str(c) for c in columns]
     if spec is None:
         raise DataError(message(f"Column for {role}", "a column name or 1-based position", "none"))
     s = str(spec)
@@ -271,7 +277,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     frame.columns = cols
     decimal = frame.attrs.get("decimal", ".")
     roles = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
-    chosen = {r: _pick(frame, s, r, fname) for r, s in roles.items() if s is not None}
+    chosen = {r: pick_column(frame.columns, s, r, fname) for r, s in roles.items() if s is not None}
     numeric = {r: _numbers(frame, c, fname, missing, decimal) for r, c in chosen.items()}
     any_missing = np.zeros(len(frame), dtype=bool)
     for r, (v, m) in numeric.items():
@@ -279,7 +285,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     extra = {}
     for role, spec in (("group", group), ("fold", fold)):
         if spec is not None:
-            c = _pick(frame, spec, role, fname)
+            c = pick_column(frame.columns, spec, role, fname)
             vals = frame[c].astype(str).str.strip().to_numpy()
             any_missing |= (vals == "") | (vals == "nan")
             extra[role] = (c, vals)
