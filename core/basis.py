@@ -21,6 +21,7 @@ import mpmath
 import numpy as np
 
 from .errors import DataError, message
+from .validate import single_x
 
 __all__ = ["Domain", "legendre_columns", "power_in_legendre", "legendre_to_power",
            "legendre_cov_to_power_se", "legval"]
@@ -40,9 +41,7 @@ class Domain:
         if not (np.isfinite(xmin) and np.isfinite(xmax)):
             raise DataError(message("x range", "finite numbers", f"[{xmin}, {xmax}]"))
         if xmax <= xmin:
-            raise DataError(message(
-                "Column x", "at least two distinct values", f"only x = {xmin!r}",
-                "A curve cannot be fitted against a single x value"))
+            raise single_x("Column x", xmin)
         center = 0.5 * xmin + 0.5 * xmax
         half = 0.5 * xmax - 0.5 * xmin
         return cls(center, half)

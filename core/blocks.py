@@ -90,6 +90,7 @@ class BlockAccumulator:
         self.lo = np.zeros((self.n_cells, p, p))
         self.counts = np.zeros(self.n_cells, dtype=np.int64)
         self.pending: dict[int, _Pending] = {}
+        self.weighted = False
 
     # ---- adding rows ------------------------------------------------------------------
     def add_rows(self, start: int, x, y, w=None) -> None:
@@ -97,6 +98,7 @@ class BlockAccumulator:
         x = np.asarray(x, dtype=np.float64)
         y = np.asarray(y, dtype=np.float64)
         w = None if w is None else np.asarray(w, dtype=np.float64)
+        self.weighted = self.weighted or w is not None
         G = self.block_rows
         pos = 0
         n = len(x)
@@ -153,6 +155,7 @@ class BlockAccumulator:
             self._add(c, other.hi[c])
             self.lo[c] += other.lo[c]
         self.counts += other.counts
+        self.weighted = self.weighted or other.weighted
         for b, pend in other.pending.items():
             mine = self.pending.setdefault(b, _Pending())
             mine.pieces.extend(pend.pieces)
@@ -164,4 +167,4 @@ class BlockAccumulator:
         """Compute the remaining partial blocks (the data's last one) and return the statistics."""
         for b in sorted(self.pending):
             self._complete(b)
-        return Moments(self.domain, self.D, self.y_shift, self.hi + self.lo, self.counts.copy())
+        return Moments(self.domain, self.D, self.y_shift, self.hi + self.lo, self.counts.copy(), self.weighted)

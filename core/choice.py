@@ -18,7 +18,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .basis import Domain, legval
+from .basis import Domain
+from .curve import Curve
 from .errors import DataError, message
 from .files import write_atomic
 from .fit import interval_bounds
@@ -95,6 +96,11 @@ class Choice:
         return np.array(self.doc["model"]["legendre_coefficients"], dtype=float)
 
     @property
+    def curve(self) -> Curve:
+        """The saved curve in the stable form."""
+        return Curve(self.domain, self.legendre, through_origin=not self.doc["model"]["intercept"])
+
+    @property
     def x_range(self) -> tuple[float, float]:
         lo, hi = self.doc["data"]["x_range"]
         return float(lo), float(hi)
@@ -109,10 +115,10 @@ class Choice:
         ``interval`` ("confidence" or "prediction") is available for lambda = 0
         choices, which store the coefficient covariance; returns (yhat, lower, upper).
         """
-        t = self.domain.map(np.asarray(x, dtype=float))
-        yhat = legval(t, self.legendre)
+        yhat = self.curve(x)
         if interval is None:
             return yhat
+        t = self.domain.map(np.asarray(x, dtype=float))
         iv = self.doc["model"]["interval"]
         cov = None if iv is None else np.array(iv["legendre_covariance"], dtype=float)
         sd = None if iv is None else iv["residual_sd"]

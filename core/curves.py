@@ -18,12 +18,11 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .basis import Domain
-from .errors import ParameterError, message
 from .folds import make_plan
-from .moments import accumulate
-from .select import _fold_sums
-from .solve import FoldSolver, check_degree, check_lambdas
-from .validate import check_xyw
+from .moments import accumulate, complement_sums
+from .params import check
+from .solve import FoldSolver
+from .validate import check_xyw, require_spread
 
 __all__ = ["LearningCurve", "learning_curve", "describe_learning_curve"]
 
@@ -66,13 +65,6 @@ class LearningCurve:
                 "reading": describe_learning_curve(self)}
 
 
-def _sizes(sizes) -> np.ndarray:
-    s = np.unique(np.asarray(sizes, dtype=float))
-    if s.size == 0 or not np.all((s > 0) & (s <= 1)):
-        raise ParameterError(message("Parameter 'sizes'", "fractions in (0, 1]", sizes))
-    return s
-
-
 def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.0, 10),
                    folds: int = 10, repeats: int = 3, seed: int = 0, weights=None, groups=None,
                    test_fraction: float = 0.0, intercept: bool = True) -> LearningCurve:
@@ -92,10 +84,10 @@ def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1
     -------
     LearningCurve
     """
-    degree = check_degree(degree)
-    lam = float(check_lambdas(lam)[0])
+    p = check(degree=degree, lam=lam, sizes=sizes, intercept=intercept)
+    degree, lam, sizes = p.degree, p.lam, p.sizes
     x, y, w = check_xyw(x, y, weights)
-    sizes = _sizes(sizes)
+    require_spread(x)
     plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, seed=seed,
                      test_fraction=test_fraction)
     k, R, m = plan.k, plan.repeats, sizes.size
@@ -121,14 +113,14 @@ def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1
     for r in range(R):
         held = G[r].sum(axis=1)          # whole fold
         for i in range(m):
-            train = _fold_sums(cum[r, :, i])
+            train = complement_sums(cum[r, :, i])
             counts = ccum[r, :, i].sum() - ccum[r, :, i]
             for f in range(k):
                 ntr[r * k + f, i] = counts[f]
                 if counts[f] <= p:
                     continue
                 sv = FoldSolver(train[f], domain, mom.y_shift, intercept)
-                theta = sv.coefficients(degree, [lam])
+                theta = sv.coefficients(degree, np.array([lam]))
                 S = sv.working(train[f])
                 H = sv.working(held[f])
                 tr[r * k + f, i] = FoldSolver.sse(S, theta)[0] / S[0, 0]

@@ -24,11 +24,13 @@ import numpy as np
 
 from .basis import Domain
 from .blocks import BLOCK_ROWS, BlockAccumulator
+from .engine import engine_from_moments
 from .errors import DataError, ParameterError, message
-from .folds import FoldPlan
-from .select import Engine, Surface, surface_from_engine
-from .solve import check_degree
-from .stream import Scan, _columns, iter_chunks, scan_file
+from .folds import FoldPlan, check_fold_rows
+from .params import check, combination
+from .select import Surface, surface_from_engine
+from .stream import chunk_columns, iter_chunks, scan_file
+from .validate import single_x
 
 __all__ = ["sweep_files", "sweep_chunks", "expand_paths"]
 
@@ -56,7 +58,7 @@ def _file_stats(path, offset, specs, missing, chunk_rows, acc_args, acc=None, on
     acc = BlockAccumulator(**acc_args) if acc is None else acc
     pos = offset
     for names, off, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
-        xv, yv, w, _, _ = _columns(names, off, frame, decimal, Path(path).name, missing)
+        xv, yv, w, _, _ = chunk_columns(names, off, frame, decimal, Path(path).name, missing)
         acc.add_rows(pos, xv, yv, w)
         pos += xv.size
         if on_chunk is not None:
@@ -71,42 +73,36 @@ def _plan(k, repeats, seed, test_fraction, counts) -> FoldPlan:
                     float(test_fraction), n_rows=n, n_sealed=n_test)
 
 
-def _check(degrees, folds, repeats, seed, test_fraction):
-    degrees = np.atleast_1d(np.asarray(degrees))
-    if degrees.size == 0:
-        raise ParameterError(message("Parameter 'degrees'", "at least one degree", "none"))
-    max_degree = max(check_degree(int(d)) for d in degrees)
-    for name, v, lo in (("folds", folds, 2), ("repeats", repeats, 1), ("seed", seed, 0)):
-        if not isinstance(v, (int, np.integer)) or v < lo:
-            raise ParameterError(message(f"Parameter '{name}'", f"an integer >= {lo}", v))
-    if not (0.0 <= test_fraction < 1.0):
-        raise ParameterError(message("Parameter 'test_fraction'", "a number in [0, 1)", test_fraction))
-    return degrees, max_degree
+def _check(degrees, lambdas, folds, repeats, seed, test_fraction, intercept, penalty, mix):
+    p = check(degrees=degrees, lambdas=lambdas, folds=folds, repeats=repeats, seed=seed,
+              test_fraction=test_fraction, intercept=intercept)
+    combination(penalty=penalty, mix=mix)
+    return p
 
 
-def _engine_from(acc: BlockAccumulator, degrees, max_degree, k, repeats, seed, test_fraction, intercept):
+def _engine_from(acc: BlockAccumulator, p, penalty, mix):
     mom = acc.finish()
     counts = mom.counts
-    need = max_degree + 1
-    for r in range(repeats):
-        for f in range(k):
-            train = int(counts[r * k:(r + 1) * k].sum() - counts[r * k + f])
-            if train < need:
-                raise DataError(message(f"Training rows of fold {f + 1}", f"at least degree + 1 = {need} rows",
-                                        train, "Lower the highest degree or use fewer folds"))
-    return Engine(mom, _plan(k, repeats, seed, test_fraction, counts), intercept)
+    k, R = p.folds, p.repeats
+    train = np.concatenate([counts[r * k:(r + 1) * k].sum() - counts[r * k:(r + 1) * k] for r in range(R)])
+    check_fold_rows(train, k, int(p.degrees.max()))
+    return engine_from_moments(mom, _plan(k, R, p.seed, p.test_fraction, counts), penalty=penalty, mix=mix,
+                               intercept=p.intercept)
 
 
 def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
                 repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
-                missing: str = "refuse", engine: str = "local", scheduler: str | None = None, client=None,
-                chunk_rows: int = 200_000, block_rows: int = BLOCK_ROWS, progress=None) -> tuple[Surface, dict]:
+                penalty: str = "ridge", mix: float = 0.5, missing: str = "refuse", engine: str = "local",
+                scheduler: str | None = None, client=None, chunk_rows: int = 200_000, block_rows: int = BLOCK_ROWS,
+                progress=None) -> tuple[Surface, dict]:
     """Cross-validated surface over the rows of several files (in order), by either engine.
 
+    Any penalty (the statistics are the same; ``core.engine.engine_from_moments``).
     Returns (surface, info) with info holding rows, x range, fingerprints, file list.
     ``progress(rows_done, rows_total, seconds)`` is called as work completes.
     """
-    degrees, max_degree = _check(degrees, folds, repeats, seed, test_fraction)
+    prm = _check(degrees, lambdas, folds, repeats, seed, test_fraction, intercept, penalty, mix)
+    max_degree = int(prm.degrees.max())
     if engine not in ("local", "dask"):
         raise ParameterError(message("Option --engine", "local or dask", repr(engine)))
     paths = [Path(p) for p in paths]
@@ -126,12 +122,12 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
         total = int(offsets[-1])
         lo, hi = min(s.x_min for s in scans), max(s.x_max for s in scans)
         if not lo < hi:
-            raise DataError(message("Column x", "at least two distinct x values", f"only {lo!r}"))
+            raise single_x(f"Column '{scans[0].x_name}'", lo)
         acc_args = dict(domain=Domain.from_range(lo, hi), max_degree=max_degree, y_shift=0.0, seed=seed,
                         k=folds, repeats=repeats, test_fraction=test_fraction, block_rows=block_rows)
         # a response shift both engines agree on: the first file's first rows
         first = next(iter_chunks(paths[0], specs, chunk_rows=min(chunk_rows, 4096)))
-        yv = _columns(*first[:2], first[2], first[3], paths[0].name, missing)[1]
+        yv = chunk_columns(*first[:2], first[2], first[3], paths[0].name, missing)[1]
         acc_args["y_shift"] = float(np.round(np.mean(yv), 6)) if yv.size else 0.0
         if engine == "dask":
             from distributed import as_completed
@@ -163,7 +159,7 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
         if own_cluster is not None:
             client.close()
             own_cluster.close()
-    eng = _engine_from(acc, degrees, max_degree, folds, repeats, seed, test_fraction, intercept)
+    eng = _engine_from(acc, prm, penalty, mix)
     h = hashlib.sha256()
     for s in scans:
         h.update(s.columns_sha256.encode())
@@ -176,7 +172,7 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
             "file_sha256": scans[0].file_sha256 if len(scans) == 1 else fh.hexdigest(),
             "x_name": scans[0].x_name, "y_name": scans[0].y_name, "weight_name": scans[0].weight_name,
             "engine": engine}
-    return surface_from_engine(eng, degrees, lambdas), info
+    return surface_from_engine(eng, prm.degrees, prm.lambdas), info
 
 
 def _client(client, scheduler):
@@ -196,12 +192,13 @@ def _client(client, scheduler):
 
 def sweep_chunks(chunks, degrees, lambdas, *, domain: Domain, y_shift: float = 0.0, folds: int = 10,
                  repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
-                 block_rows: int = BLOCK_ROWS, progress=None) -> Surface:
+                 penalty: str = "ridge", mix: float = 0.5, block_rows: int = BLOCK_ROWS, progress=None) -> Surface:
     """True streaming: rows from an iterator of (x, y[, w]) chunks with a declared domain.
 
     One pass; memory is one chunk plus the statistics (no per-row arrays are kept).
     """
-    degrees, max_degree = _check(degrees, folds, repeats, seed, test_fraction)
+    p = _check(degrees, lambdas, folds, repeats, seed, test_fraction, intercept, penalty, mix)
+    max_degree = int(p.degrees.max())
     acc = BlockAccumulator(domain, max_degree, y_shift, seed=seed, k=folds, repeats=repeats,
                            test_fraction=test_fraction, block_rows=block_rows)
     pos = 0
@@ -213,5 +210,5 @@ def sweep_chunks(chunks, degrees, lambdas, *, domain: Domain, y_shift: float = 0
         pos += len(xv)
         if progress is not None:
             progress(pos, None, time.perf_counter() - t0)
-    eng = _engine_from(acc, degrees, max_degree, folds, repeats, seed, test_fraction, intercept)
-    return surface_from_engine(eng, degrees, lambdas)
+    eng = _engine_from(acc, p, penalty, mix)
+    return surface_from_engine(eng, p.degrees, p.lambdas)

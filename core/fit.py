@@ -7,7 +7,7 @@ design), refined twice with residuals evaluated in extended precision
 (``numpy.longdouble``), so exact-fit data give residuals near zero rather than
 near float rounding of y. Raw-x power coefficients and their standard errors
 are then converted from the Legendre form in high-precision arithmetic.
-For lambda > 0 the ridge solution comes from the rows' statistics (``core.solve``).
+For lambda > 0 the penalized solution comes from the rows' statistics (``core.solve``).
 """
 
 from __future__ import annotations
@@ -15,27 +15,25 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy import stats
 from scipy.linalg import solve_triangular
 
-from .basis import Domain, legendre_columns, legendre_cov_to_power_se, legendre_to_power, legval
+from .basis import Domain, legendre_columns, legendre_cov_to_power_se, legendre_to_power
+from .curve import Curve
 from .errors import DataError, ParameterError, message
 from .moments import accumulate
-from .solve import FoldSolver, check_degree, check_lambdas
-from .validate import check_xyw
+from .params import check, combination
+from .solve import FoldSolver, solve_sets
+from .validate import check_xyw, require_spread
 
-__all__ = ["FitResult", "fit", "interval_bounds"]
+__all__ = ["FitResult", "fit", "fit_from_engine", "interval_bounds"]
 
 
 def interval_bounds(yhat, t, cov, residual_sd, df, interval, level):
     """Lower and upper t-based bounds from the Legendre-coefficient covariance (lambda = 0)."""
-    from scipy import stats
-
-    from .errors import ParameterError
-
     if interval not in ("confidence", "prediction"):
         raise ParameterError(message("Parameter 'interval'", "None, 'confidence' or 'prediction'", repr(interval)))
-    if not (0 < level < 1):
-        raise ParameterError(message("Parameter 'level'", "a number between 0 and 1", level))
+    level = check(level=level).level
     if cov is None:
         raise ParameterError(message("Interval", "a lambda = 0 fit (classical intervals)",
                                      "a penalized fit", "Use lambda = 0 for t-based intervals"))
@@ -54,10 +52,9 @@ class FitResult:
     Attributes
     ----------
     degree, lam, intercept : the configuration.
-    domain : Domain
-        Mapping of raw x onto t in [-1, 1] used by ``legendre``.
-    legendre : ndarray of shape (degree + 1,)
-        Stable form: yhat = sum_j legendre[j] * P_j((x - center) / half_width).
+    curve : Curve
+        The fitted curve in the stable form (domain map + Legendre coefficients);
+        ``domain`` and ``legendre`` are its parts.
     power : ndarray of shape (degree + 1,)
         Raw-x form: yhat = power[0] + power[1] x + ... + power[d] x^d (power[0] = 0
         without intercept).
@@ -84,8 +81,7 @@ class FitResult:
     degree: int
     lam: float
     intercept: bool
-    domain: Domain
-    legendre: np.ndarray = field(repr=False)
+    curve: Curve
     power: np.ndarray = field(repr=False)
     std_errors: np.ndarray | None = field(repr=False)
     residual_sd: float
@@ -100,6 +96,14 @@ class FitResult:
     legendre_cov: np.ndarray | None = field(default=None, repr=False)
     penalty: str = "ridge"
     mix: float = 0.0
+
+    @property
+    def domain(self) -> Domain:
+        return self.curve.domain
+
+    @property
+    def legendre(self) -> np.ndarray:
+        return self.curve.coef
 
     @property
     def reduced_chi_square(self) -> float:
@@ -128,11 +132,10 @@ class FitResult:
         -------
         ndarray of shape (m,), or (prediction, lower, upper) with an interval.
         """
-        x = np.asarray(x, dtype=float)
-        t = self.domain.map(x)
-        yhat = legval(t, self.legendre)
+        yhat = self.curve(x)
         if interval is None:
             return yhat
+        t = self.domain.map(np.asarray(x, dtype=float))
         return (yhat, *interval_bounds(yhat, t, self.legendre_cov, self.residual_sd,
                                        self.df_residual, interval, level))
 
@@ -213,15 +216,14 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     degree : int
         0 (constant) to 30.
     lam : float
-        Ridge penalty on the standardized non-intercept coefficients; 0 is
-        ordinary (weighted) least squares.
+        Penalty strength; 0 is ordinary (weighted) least squares.
     weights : array_like of shape (n,), optional
         Positive row weights (default 1).
     intercept : bool
         False fits through the origin (yhat(0) = 0).
     penalty : {"ridge", "lasso", "elastic"}
         lambda * (mix * sum |b| + (1 - mix) * sum b^2) on the standardized
-        coefficients (``core.penalized``); ridge is mix = 0, lasso mix = 1.
+        coefficients (``core.penalties``); ridge is mix = 0, lasso mix = 1.
     mix : float
         The elastic net's L1 share.
 
@@ -243,23 +245,21 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     >>> np.round(r.power, 12).tolist()
     [1.0, 2.0]
     """
-    from .penalized import check_penalty, penalized_coefficients
-
-    degree = check_degree(degree)
-    lam = float(check_lambdas(lam)[0])
-    mix_ = check_penalty(penalty, mix)
+    p = check(degree=degree, lam=lam, intercept=intercept)
+    degree, lam, intercept = p.degree, p.lam, p.intercept
+    mix_ = combination(penalty=penalty, mix=mix)
     x, y, w = check_xyw(x, y, weights)
+    require_spread(x)
     weighted = weights is not None
     n = x.size
-    p = degree + 1 if intercept else degree
-    distinct = np.unique(x).size
-    if distinct < 2:
-        raise DataError(message("Column x", "at least two distinct values", f"only x = {x[0]!r}",
-                                "A curve cannot be fitted against a single x value"))
-    if lam == 0 and distinct < p + (0 if intercept else 0) and degree >= distinct:
-        raise DataError(message(
-            f"Degree {degree} at lambda = 0", f"at least {degree + 1} distinct x values",
-            distinct, "Lower the degree or use lambda > 0"))
+    npar = degree + 1 if intercept else degree
+    if lam == 0:
+        distinct = np.unique(x).size
+        if degree >= distinct:
+            raise DataError(message(f"Degree {degree} at lambda = 0", f"at least {degree + 1} distinct x values",
+                                    distinct, "Lower the degree or use lambda > 0"))
+        if n <= npar:
+            raise DataError(message(f"Rows for degree {degree}", f"more than {npar} rows", n))
     domain = Domain.from_range(x.min(), x.max())
     ybar = np.average(y, weights=w)
     if intercept:
@@ -269,13 +269,10 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     se = None
     leg_cov = None
     if lam == 0.0:
-        if n <= p:
-            raise DataError(message(f"Rows for degree {degree}", f"more than {p} rows", n))
         legendre, power, sse, cov_u, _ = _ols_rows(x, y, w, degree, intercept, domain)
-        df_res = float(n - p)
-        edf = float(p)
+        df_res = float(n - npar)
+        edf = float(npar)
         resid_sd = float(np.sqrt(sse / df_res))
-        first = 0 if intercept else 1
         if intercept:
             leg_cov = resid_sd ** 2 * cov_u
             se = legendre_cov_to_power_se(domain, leg_cov)
@@ -283,35 +280,28 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
             J, cq = cov_u
             se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, resid_sd ** 2 * cq, first=1)])
             leg_cov = resid_sd ** 2 * (J @ cq @ J.T)
+        curve = Curve(domain, legendre, through_origin=not intercept)
     else:
         M = accumulate(x, y, labels=np.zeros((1, n), dtype=np.int16), n_cells=1,
                        domain=domain, max_degree=degree, weights=w)
         solver = FoldSolver(M.gram[0], domain, M.y_shift, intercept)
-        if penalty == "ridge":
-            theta = solver.coefficients(degree, [lam])[0]
-            edf = float(solver.effective_df(degree, [lam])[0])
-        else:
-            th, df = penalized_coefficients([solver], degree, np.array([lam]), mix_)
-            theta, edf = th[0, 0], float(df[0, 0])
-            if not np.all(np.isfinite(theta)):
-                raise ParameterError(message(f"Degree {degree} with the {penalty} penalty",
-                                             "standardized powers that are not collinear to working precision",
-                                             "a condition number above 1e14",
-                                             "Use a lower degree or the ridge penalty"))
-        theta[0] += solver.offset
-        legendre = theta
-        r = y - legval(domain.map(x), legendre)
+        th, df = solve_sets([solver], degree, np.array([lam]), penalty, mix_)
+        if not np.all(np.isfinite(th)):
+            raise ParameterError(message(f"Degree {degree} with the {penalty} penalty",
+                                         "standardized powers that are not collinear to working precision",
+                                         "a condition number above 1e14",
+                                         "Use a lower degree or the ridge penalty"))
+        curve = solver.curve(th[0, 0])
+        edf = float(df[0, 0])
+        r = y - curve(x)
         sse = float(np.sum(w * r * r))
         df_res = float(n - edf)
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
-        power = legendre_to_power(domain, legendre)
-        if not intercept:
-            power[0] = 0.0
+        power = curve.power_form()
     r2 = 1.0 - sse / sst if sst > 0 else float("nan")
-    return FitResult(degree, lam, bool(intercept), domain, np.asarray(legendre, float),
-                     np.asarray(power, float), se, resid_sd, float(r2), df_res, edf, int(n),
-                     float(sse), float(sse / np.sum(w)), weighted, (float(x.min()), float(x.max())),
-                     leg_cov, penalty, mix_)
+    return FitResult(degree, lam, bool(intercept), curve, np.asarray(power, float), se, resid_sd, float(r2),
+                     df_res, edf, int(n), float(sse), float(sse / np.sum(w)), weighted,
+                     (float(x.min()), float(x.max())), leg_cov, penalty, mix_)
 
 
 def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
@@ -322,31 +312,25 @@ def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
     the through-origin map otherwise), so standard errors and intervals match
     ``fit`` to rounding; the row-based refinement of ``fit`` is not available.
     """
-    degree = check_degree(degree, engine.max_degree)
-    lam = float(check_lambdas(lam)[0])
+    curve = engine.curve(degree, lam)
+    lam = float(lam)
     sv = engine.full
-    theta_w = engine._full_coefficients(degree, [lam])
-    sse = float(FoldSolver.sse(engine.full_stats, theta_w)[0])
-    legendre = theta_w[0].copy()
-    legendre[0] += sv.offset
-    n = engine.n_train
-    W = float(engine.full_stats[0, 0])
-    p = degree + 1 if sv.intercept else degree
-    edf = float(engine.effective_df(degree, [lam])[0])
     S = engine.full_stats
-    if sv.intercept:
-        sst = float(sv.yy_centred)
-    else:
-        sst = float(S[-1, -1])
+    W = float(S[0, 0])
+    train_mse = float(engine.train_mse(degree, [lam])[0])
+    sse = train_mse * W
+    n = engine.n_train
+    npar = degree + 1 if sv.intercept else degree
+    edf = float(engine.effective_df(degree, [lam])[0])
+    sst = float(sv.yy_centred) if sv.intercept else float(S[-1, -1])
     domain = engine.domain
     se = leg_cov = None
     if lam == 0.0:
-        df_res = float(n - p)
+        df_res = float(n - npar)
         resid_sd = float(np.sqrt(sse / df_res))
         G = S[:degree + 1, :degree + 1]
         if sv.intercept:
-            cov_q = np.linalg.inv(G)
-            leg_cov = resid_sd ** 2 * cov_q
+            leg_cov = resid_sd ** 2 * np.linalg.inv(G)
             se = legendre_cov_to_power_se(domain, leg_cov)
         else:
             p0 = legendre_columns(np.array([domain.map(0.0)]), degree)[0]
@@ -357,12 +341,8 @@ def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
     else:
         df_res = float(n - edf)
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
-    power = legendre_to_power(domain, legendre)
-    if not sv.intercept:
-        power[0] = 0.0
     lo = domain.center - domain.half_width
     hi = domain.center + domain.half_width
-    return FitResult(degree, lam, sv.intercept, domain, legendre, power, se, resid_sd,
+    return FitResult(degree, lam, sv.intercept, curve, curve.power_form(), se, resid_sd,
                      float(1 - sse / sst) if sst > 0 else float("nan"), df_res, edf, int(n), sse,
-                     sse / W, bool(not np.allclose(W, n)), (float(lo), float(hi)), leg_cov,
-                     engine.penalty, engine.mix)
+                     train_mse, engine.weighted, (float(lo), float(hi)), leg_cov, engine.penalty, engine.mix)

@@ -24,8 +24,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import DataError, ParameterError, message
+from .params import check
 
-__all__ = ["FoldPlan", "make_plan"]
+__all__ = ["FoldPlan", "make_plan", "cell_labels", "sealed_mask", "check_fold_rows"]
 
 
 @dataclass(frozen=True)
@@ -69,17 +70,8 @@ class FoldPlan:
                 "n_rows": self.n, "n_test": self.n_test}
 
 
-def _check_int(name: str, value, lo: int, hi: int | None = None) -> int:
-    ok = isinstance(value, (int, np.integer)) and not isinstance(value, bool)
-    if not ok or value < lo or (hi is not None and value > hi):
-        rng = f"an integer >= {lo}" if hi is None else f"an integer from {lo} to {hi}"
-        raise ParameterError(message(f"Parameter '{name}'", rng, value))
-    return int(value)
-
-
-def _sealed(n: int, test_fraction: float, seed: int, groups) -> np.ndarray:
-    if not (0.0 <= float(test_fraction) < 1.0):
-        raise ParameterError(message("Parameter 'test_fraction'", "a number in [0, 1)", test_fraction))
+def sealed_mask(n: int, test_fraction: float, seed: int, groups=None) -> np.ndarray:
+    """Which of n rows are sealed away (see module docstring); inputs trusted."""
     mask = np.zeros(n, dtype=bool)
     n_test = int(round(test_fraction * n))
     if n_test == 0:
@@ -125,15 +117,15 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
     ParameterError
         Bad k, repeats or fraction, or too few rows/groups for k folds.
     """
-    seed = _check_int("seed", seed, 0)
-    repeats = _check_int("repeats", repeats, 1, 1000)
+    p = check(seed=seed, repeats=repeats, test_fraction=test_fraction)
+    seed, repeats, test_fraction = p.seed, p.repeats, p.test_fraction
     if groups is not None and fold_ids is not None:
         raise ParameterError("Parameters 'groups' and 'fold_ids': expected at most one of them, got both.")
     if groups is not None:
         groups = np.asarray(groups)
         if groups.shape != (n,):
             raise DataError(message("Group column", f"{n} values (one per row)", groups.shape[0]))
-    test_mask = _sealed(n, test_fraction, seed, groups)
+    test_mask = sealed_mask(n, test_fraction, seed, groups)
     train = np.flatnonzero(~test_mask)
     m = train.size
     labels = np.full((repeats, n), -1, dtype=np.int16)
@@ -151,7 +143,7 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
         labels[0, train] = inv
         return FoldPlan("explicit", k, 1, seed, labels, test_mask, float(test_fraction))
 
-    k = _check_int("folds", folds, 2, 1000)
+    k = check(folds=folds).folds
     if groups is not None:
         uniq, inv = np.unique(groups[train], return_inverse=True)
         if len(uniq) < k:
@@ -180,3 +172,41 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
         perm = np.random.default_rng([seed, 11, r]).permutation(m)
         labels[r, perm if whole else train[perm]] = pos
     return FoldPlan("kfold", k, repeats, seed, labels, test_mask, float(test_fraction))
+
+
+def cell_labels(plan: FoldPlan, max_degree: int) -> np.ndarray:
+    """Cell of every row for each repeat (``r * k + fold``; sealed rows -> ``R * k`` in repeat 0).
+
+    Raises
+    ------
+    DataError
+        When a fold's training rows are fewer than max_degree + 1 (the one place this
+        data check lives for row-held plans).
+    """
+    k, R = plan.k, plan.repeats
+    if R == 1:
+        labels = plan.labels.copy()
+    else:
+        labels = plan.labels.astype(np.int32)
+        for r in range(1, R):
+            labels[r, labels[r] >= 0] += r * k
+    if plan.n_test:
+        labels[0, plan.test_mask] = R * k
+    counts = np.concatenate([np.bincount(plan.labels[r][plan.labels[r] >= 0], minlength=k)
+                             for r in range(R)])
+    check_fold_rows(plan.n - plan.n_test - counts, k, max_degree)
+    return labels
+
+
+def check_fold_rows(train_rows: np.ndarray, k: int, max_degree: int) -> None:
+    """Refuse folds whose training rows are fewer than max_degree + 1 (``train_rows`` per fold,
+    repeat-major)."""
+    need = max_degree + 1
+    train_rows = np.asarray(train_rows)
+    if train_rows.min() < need:
+        i = int(np.argmin(train_rows))
+        repeats = train_rows.size // k
+        raise DataError(message(
+            f"Training rows of fold {i % k + 1}" + (f" (repeat {i // k + 1})" if repeats > 1 else ""),
+            f"at least degree + 1 = {need} rows", int(train_rows[i]),
+            "Lower the highest degree, use fewer folds or a smaller test fraction"))

@@ -12,62 +12,59 @@ the intercept free and the centred Legendre block Pc = R'R-factorized as in
 so every lambda costs O(n d) once M is formed (O(n d^2) per degree). The score is
 the weighted mean of squared LOO residuals, sum w e_(i)^2 / sum w (each row is its
 own fold; with unit weights the plain mean).
+
+The shortcut holds for penalties that keep the fit linear in y (ridge); the
+lasso and elastic net, repeats, groups and explicit folds are refused
+(``core.params.combination``), never silently replaced.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .basis import legendre_columns
+from .basis import Domain, legendre_columns
+from .engine import ScoringEngine
 from .errors import DataError, message
 from .folds import FoldPlan
-from .select import Engine, build_engine
-from .solve import check_degree, check_lambdas
+from .moments import accumulate
+from .params import combination
+from .penalties import ridge_filter
 
 __all__ = ["LooEngine", "build_loo_engine"]
 
 
-class LooEngine:
-    """Duck-types ``Engine`` for the surface code, scoring by leave-one-out."""
+class LooEngine(ScoringEngine):
+    """Leave-one-out scoring; the all-rows answers come from the shared contract.
 
-    def __init__(self, base: Engine, x, y, w):
-        self.base = base
-        train = ~base.plan.test_mask
-        self.x, self.y, self.w = x[train], y[train], w[train]
-        n = self.x.size
-        self.plan = FoldPlan("loo", n, 1, base.plan.seed, np.zeros((1, 0), dtype=np.int16), base.plan.test_mask,
-                             base.plan.test_fraction)
-        self.intercept = base.intercept
-        self.n_folds = n
-        self.n_train, self.n_test = base.n_train, base.n_test
-        self.full = base.full
-        self.P = legendre_columns(base.domain.map(self.x), base.max_degree)
+    ``moments`` has two cells: the training rows and the sealed rows.
+    """
+
+    def __init__(self, moments, plan: FoldPlan, x, y, w, *, intercept: bool = True):
+        n_test = int(moments.counts[1]) if moments.n_cells > 1 else 0
+        super().__init__(moments, plan, moments.gram[0], moments.gram[1] if n_test else None,
+                         penalty="ridge", mix=0.0, intercept=intercept,
+                         n_train=int(moments.counts[0]), n_test=n_test)
+        self.x, self.y, self.w = x, y, w
+        self.P = legendre_columns(moments.domain.map(x), moments.max_degree)
         self._M: dict[int, np.ndarray] = {}
 
-    # delegated to the all-rows solver
-    max_degree = property(lambda self: self.base.max_degree)
-    domain = property(lambda self: self.base.domain)
+    @property
+    def counts(self) -> np.ndarray:
+        return np.ones(self.x.size, dtype=np.int64)
 
-    def curve(self, degree, lam):
-        return self.base.curve(degree, lam)
-
-    def effective_df(self, degree, lams):
-        return self.base.effective_df(degree, lams)
-
-    def train_mse_all(self, degree, lams):
-        return self.base.train_mse_all(degree, lams)
-
-    def test_mse(self, degree, lam):
-        return self.base.test_mse(degree, lam)
+    def with_penalty(self, penalty: str, mix: float = 0.5) -> "LooEngine":
+        combination(penalty=penalty, mix=mix, folds="loo")    # refuses anything but ridge
+        return self
 
     def _leverage_factors(self, degree: int) -> np.ndarray:
         M = self._M.get(degree)
         if M is None:
             sv = self.full
-            f = sv._prepare(degree)
+            f = sv.factor(degree)
             if f.R is None:
                 raise DataError(message(f"Leave-one-out at degree {degree}",
-                                        f"at least {degree + 1} distinct x values", "fewer"))
+                                        f"at least {degree + 1} distinct x values in the training rows", "fewer",
+                                        "Lower the degree or use k-fold cross-validation"))
             if self.intercept:
                 Pc = self.P[:, 1:degree + 1] - sv.mean[1:degree + 1]
             else:
@@ -76,48 +73,38 @@ class LooEngine:
             self._M[degree] = M
         return M
 
-    def scores(self, degree: int, lams, *, train: bool = True, full: bool = False):
-        """(squared LOO residual per row, training MSE): shapes (n, nl) and (1, nl); with
-        ``full=True`` also the all-rows training MSE, shape (nl,) (as ``Engine.scores``)."""
-        degree = check_degree(degree, self.max_degree)
-        lams = check_lambdas(lams)
+    def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
+        """(weighted squared LOO residual per row, shape (n, nl); training MSE, shape (1, nl))."""
+        degree, lams = self._args(degree, lams)
         sv = self.full
-        theta = sv.coefficients(degree, lams)                      # (nl, d+1), working coordinates
-        theta[:, 0] += sv.offset
-        yhat = self.P[:, :degree + 1] @ theta.T                    # (n, nl)
-        e = self.y[:, None] - yhat
+        theta = sv.raw(self._full(degree, lams)[0])                 # (nl, d+1), raw response
+        e = self.y[:, None] - self.P[:, :degree + 1] @ theta.T     # (n, nl)
         M = self._leverage_factors(degree)
-        s2 = sv._prepare(degree).s ** 2
-        with np.errstate(divide="ignore", invalid="ignore"):
-            filt = np.where(s2 > 0, s2 / (s2 + lams[:, None]), 0.0)    # (nl, d)
-        h = (M * M) @ filt.T                                       # (n, nl)
+        h = (M * M) @ ridge_filter(sv.factor(degree).s ** 2, lams).T
         if self.intercept:
             h = h + 1.0 / sv.W
         h = self.w[:, None] * h
         loo = e / (1.0 - h)
-        tr = (np.sum(self.w[:, None] * e * e, axis=0) / np.sum(self.w))[None, :] if train else None
+        tr = (np.sum(self.w[:, None] * e * e, axis=0) / np.sum(self.w))[None, :]
         # weight each row's loss by w_i / mean(w), so the mean over rows is sum w e^2 / sum w
-        losses = (self.w / self.w.mean())[:, None] * loo * loo
-        return (losses, tr, tr[0]) if full else (losses, tr)
+        return (self.w / self.w.mean())[:, None] * loo * loo, tr
 
-    def cv_summary(self, degree, lams):
-        from .select import fold_mean_se
-
-        cv, tr = self.scores(degree, lams)
-        m, se = fold_mean_se(cv)
-        return m, se, tr[0]
-
-    def cv_mean(self, degree, lam):
-        cv, _ = self.scores(degree, [lam], train=False)
-        return float(cv.mean())
+    def cv_summary(self, degree: int, lams):
+        mean, se, _ = super().cv_summary(degree, lams)
+        return mean, se, self.scores(degree, lams)[1][0]
 
 
-def build_loo_engine(x, y, *, max_degree: int, weights=None, seed: int = 0, test_fraction: float = 0.0,
-                     groups=None, intercept: bool = True) -> LooEngine:
-    """Leave-one-out engine over the rows outside the sealed test set."""
-    from .validate import check_xyw
-
-    xa, ya, wa = check_xyw(x, y, weights)
-    base = build_engine(xa, ya, max_degree=max_degree, folds=2, seed=seed, weights=weights, groups=groups,
-                        test_fraction=test_fraction, intercept=intercept)
-    return LooEngine(base, xa, ya, wa)
+def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max_degree: int,
+                     intercept: bool = True) -> LooEngine:
+    """Leave-one-out engine over the rows outside the sealed test set (inputs trusted)."""
+    train = ~test_mask
+    labels = np.where(train, 0, 1)[None, :].astype(np.int32)
+    domain = Domain.from_range(x.min(), x.max())
+    mom = accumulate(x, y, labels=labels, n_cells=2, domain=domain, max_degree=max_degree,
+                     weights=w)
+    n = int(train.sum())
+    loo_labels = np.full((1, x.size), -1, dtype=np.int32)
+    loo_labels[0, train] = np.arange(n)
+    loo_plan = FoldPlan("loo", n, 1, seed, loo_labels, test_mask, test_fraction)
+    wt = np.ones(n) if w is None else w[train]
+    return LooEngine(mom, loo_plan, x[train], y[train], wt, intercept=intercept)

@@ -24,9 +24,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .basis import Domain, legendre_columns
-from .errors import ParameterError, message
+from .params import check
 
-__all__ = ["Moments", "Accumulator", "accumulate", "unshift", "DEFAULT_CHUNK"]
+__all__ = ["Moments", "Accumulator", "accumulate", "unshift", "complement_sums", "DEFAULT_CHUNK"]
 
 DEFAULT_CHUNK = 16384
 
@@ -47,6 +47,8 @@ class Moments:
         ``sum w b b'`` per cell; index D + 1 is the shifted response.
     counts : ndarray of shape (n_cells,), int64
         Unweighted row count per cell.
+    weighted : bool
+        Whether rows carried weights (recorded, never guessed from the sums).
     """
 
     domain: Domain
@@ -54,6 +56,7 @@ class Moments:
     y_shift: float
     gram: np.ndarray = field(repr=False)
     counts: np.ndarray = field(repr=False)
+    weighted: bool = False
 
     @property
     def n_cells(self) -> int:
@@ -61,11 +64,30 @@ class Moments:
 
     def __add__(self, other: "Moments") -> "Moments":
         if (self.domain != other.domain or self.max_degree != other.max_degree
-                or self.y_shift != other.y_shift or self.gram.shape != other.gram.shape):
+                or self.y_shift != other.y_shift or self.gram.shape != other.gram.shape
+                or self.weighted != other.weighted):
             raise ValueError("Moments: expected statistics of the same layout (domain, "
-                             "degree, y shift, cells) to merge, got different ones.")
+                             "degree, y shift, cells, weighting) to merge, got different ones.")
         return Moments(self.domain, self.max_degree, self.y_shift,
-                       self.gram + other.gram, self.counts + other.counts)
+                       self.gram + other.gram, self.counts + other.counts, self.weighted)
+
+
+def complement_sums(blocks: np.ndarray) -> np.ndarray:
+    """For blocks[0..k-1], the sum of all blocks but f, for every f.
+
+    Prefix and suffix sums: only additions, so no cancellation (training
+    statistics of fold f are the other folds' statistics added up).
+    """
+    k = blocks.shape[0]
+    zero = np.zeros_like(blocks[0])
+    pre = [zero]
+    for b in blocks[:-1]:
+        pre.append(pre[-1] + b)
+    suf = [zero]
+    for b in blocks[:0:-1]:
+        suf.append(suf[-1] + b)
+    suf = suf[::-1]
+    return np.stack([pre[f] + suf[f] for f in range(k)])
 
 
 def unshift(M: np.ndarray, y_shift: float) -> np.ndarray:
@@ -101,10 +123,9 @@ class Accumulator:
 
     def __init__(self, domain: Domain, max_degree: int, n_cells: int, *,
                  y_shift: float | None = None, chunk: int = DEFAULT_CHUNK):
-        if not (0 <= max_degree <= 30):
-            raise ParameterError(message("Parameter 'max_degree'", "an integer from 0 to 30", max_degree))
         self.domain = domain
-        self.max_degree = int(max_degree)
+        self.max_degree = check(max_degree=max_degree).max_degree
+        self.weighted = False
         self.n_cells = int(n_cells)
         self.y_shift = y_shift
         self.chunk = int(chunk)
@@ -120,6 +141,7 @@ class Accumulator:
         x = np.asarray(x, dtype=np.float64)
         y = np.asarray(y, dtype=np.float64)
         labels = np.atleast_2d(labels)
+        self.weighted = self.weighted or weights is not None
         if self.y_shift is None:
             head = slice(0, min(len(y), self.chunk))
             yw = y[head] if weights is None else np.average(y[head], weights=weights[head])
@@ -155,7 +177,7 @@ class Accumulator:
 
     def result(self) -> Moments:
         return Moments(self.domain, self.max_degree, float(self.y_shift or 0.0),
-                       self._gram.copy(), self._counts.copy())
+                       self._gram.copy(), self._counts.copy(), self.weighted)
 
 
 def accumulate(x, y, *, labels, n_cells: int, domain: Domain, max_degree: int,

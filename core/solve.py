@@ -1,4 +1,4 @@
-"""Ridge solves from sufficient statistics, and plain gradient descent as a cross-check.
+"""Ridge solves from sufficient statistics.
 
 The model for degree d and penalty lambda (with intercept): features
 ``z_k = (x**k - mu_k) / sigma_k`` for k = 1..d, with mu_k, sigma_k the weighted
@@ -16,41 +16,33 @@ centred Legendre Gram matrix and K = T diag(1/sigma) the exact map from
 standardized powers to Legendre coordinates, the problem is
 ``min ||q - A b||^2 + lambda ||b||^2`` with A = R K and q = R^-T Pc'W y. One SVD
 A = U S V' serves every lambda, and the curve's Legendre coefficients are
-``R^-1 U diag(s^2 / (s^2 + lambda)) U' q``; for lambda = 0 this is the plain
+``R^-1 U diag(f) U' q`` with the ridge filter f = s^2 / (s^2 + lambda)
+(``core.penalties.ridge_filter``); for lambda = 0 this is the plain
 least-squares solution ``R^-1 q``, computed directly. Leading blocks of the
 factors are the lower-degree quantities, so one Cholesky serves all degrees.
+
+Inputs are trusted: degrees and lambdas are validated at the public entry points
+(``core.params``).
 """
 
 from __future__ import annotations
 
 import functools
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from scipy.linalg import solve_triangular
 
 from .basis import Domain, legendre_columns, power_in_legendre
+from .curve import Curve
 from .errors import NumericalWarning, ParameterError, message
 from .moments import unshift
+from .penalties import penalized_coefficients, ridge_filter
 
-__all__ = ["FoldSolver", "GradientDescentResult", "gradient_descent", "check_degree", "check_lambdas"]
+__all__ = ["FoldSolver", "FoldBatch", "DegreeFactor", "solve_sets"]
 
 _RANK_TOL = 1e-11
-
-
-def check_degree(degree, max_degree: int = 30) -> int:
-    ok = isinstance(degree, (int, np.integer)) and not isinstance(degree, bool)
-    if not ok or not (0 <= degree <= max_degree):
-        raise ParameterError(message("Parameter 'degree'", f"an integer from 0 to {max_degree}", degree))
-    return int(degree)
-
-
-def check_lambdas(lams) -> np.ndarray:
-    arr = np.atleast_1d(np.asarray(lams, dtype=float))
-    if arr.ndim != 1 or arr.size == 0 or not np.all(np.isfinite(arr)) or np.any(arr < 0):
-        raise ParameterError(message("Parameter 'lambda'", "finite numbers >= 0", lams))
-    return arr
 
 
 @functools.lru_cache(maxsize=64)
@@ -77,18 +69,23 @@ def _chol_rank(G: np.ndarray) -> tuple[np.ndarray, int]:
     return L, n
 
 
-@dataclass
-class _Degree:
-    """Per-degree factorization: everything needed for any lambda."""
-    R: np.ndarray | None       # upper factor (None on the rank-deficient path)
-    K: np.ndarray              # standardized power -> Legendre map for this degree
+@dataclass(frozen=True)
+class DegreeFactor:
+    """Per-degree factorization of one training set: everything needed for any lambda.
+
+    ``R`` is None on the rank-deficient (eigen) path; ``exact0`` is the lambda = 0
+    solution in working coordinates there too (None when not unique);
+    ``RiU`` = R^-1 U maps filtered components to coefficients.
+    """
+    R: np.ndarray | None
+    K: np.ndarray
     U: np.ndarray
     s: np.ndarray
     Vt: np.ndarray
     Uq: np.ndarray
     q: np.ndarray
-    exact0: np.ndarray | None  # lambda = 0 solution in the working coordinates
-    RiU: np.ndarray | None     # R^-1 U: maps filtered components to coefficients
+    exact0: np.ndarray | None
+    RiU: np.ndarray | None
 
 
 class FoldSolver:
@@ -101,14 +98,17 @@ class FoldSolver:
     domain : Domain
     y_shift : float
     intercept : bool
+    label : str
+        What the rows are, for messages ("training rows of fold 3").
 
     Notes
     -----
-    Coefficients come back as Legendre coefficients *in working coordinates*:
-    for intercept models the response is the shifted one (add ``offset`` to
-    coefficient 0 for raw y), for through-origin models it is raw y.
-    ``working(M)`` converts any statistics matrix to the same coordinates, so
-    ``sse(M, theta)`` scores held-out rows without cancellation from the shift.
+    ``coefficients`` returns Legendre coefficients *in working coordinates*: for
+    intercept models the response is the shifted one, for through-origin models
+    raw y. ``raw`` (or ``curve``) converts to the user's response: the one place
+    the shift is added back. ``working(M)`` converts any statistics matrix to the
+    same coordinates, so ``sse(M, theta)`` scores held-out rows without
+    cancellation from the shift.
     """
 
     def __init__(self, S: np.ndarray, domain: Domain, y_shift: float, intercept: bool = True,
@@ -127,7 +127,7 @@ class FoldSolver:
         T = _T(domain, D)
         self.T = T
         Gc = S[1:D + 1, 1:D + 1] - np.outer(s[1:D + 1], s[1:D + 1]) / self.W
-        self._ycw = s[D + 1] / self.W            # weighted mean of working response
+        self.response_mean = s[D + 1] / self.W      # weighted mean of the working response
         self.yy_centred = float(S[D + 1, D + 1] - s[D + 1] ** 2 / self.W)
         var = np.einsum("jk,jl,lk->k", T[1:, 1:], Gc / self.W, T[1:, 1:]) if D else np.zeros(0)
         self.sigma = np.sqrt(np.maximum(var, 0.0))  # of normalized powers 1..D
@@ -144,7 +144,7 @@ class FoldSolver:
         self.Rinv = solve_triangular(self.L[:r, :r].T, np.eye(r), check_finite=False) if r else np.zeros((0, 0))
         self.qfull = self.Rinv.T @ self.g[:r]
         self.nfull = self.Rinv.T @ self.p0[:r] if not intercept else None
-        self._cache: dict[int, _Degree] = {}
+        self._cache: dict[int, DegreeFactor] = {}
         self._warned = False
 
     # --- coordinates -----------------------------------------------------
@@ -152,27 +152,58 @@ class FoldSolver:
         """Statistics matrix in this solver's working response coordinates."""
         return M if self.intercept else unshift(M, self.y_shift)
 
-    def _dim(self, degree: int) -> int:
+    def dim(self, degree: int) -> int:
+        """Number of solved coefficients (the intercept's follows from the means)."""
         return degree if self.intercept else degree + 1
 
+    def raw(self, theta: np.ndarray) -> np.ndarray:
+        """Coefficients for the raw response from working ones (any leading shape)."""
+        out = np.array(theta, dtype=float, copy=True)
+        out[..., 0] += self.offset
+        return out
+
+    def curve(self, theta: np.ndarray) -> Curve:
+        """The ``Curve`` of one working coefficient vector."""
+        return Curve(self.domain, self.raw(theta), through_origin=not self.intercept)
+
+    def assemble(self, theta_w: np.ndarray, degree: int) -> np.ndarray:
+        """Full working coefficients (nl, degree + 1) from the solved part (nl, dim(degree)).
+
+        With an intercept the constant coefficient follows from the weighted means
+        (the fit passes through them); without one the solved part is the whole vector.
+        """
+        nl = theta_w.shape[0]
+        out = np.zeros((nl, degree + 1))
+        if self.intercept:
+            out[:, 1:] = theta_w
+            out[:, 0] = self.response_mean - theta_w @ self.mean[1:degree + 1]
+        else:
+            out[:, :theta_w.shape[1]] = theta_w
+        return out
+
+    def power_map(self, degree: int) -> np.ndarray:
+        """K: standardized powers 1..degree -> working Legendre coordinates."""
+        rows = slice(1, degree + 1) if self.intercept else slice(0, degree + 1)
+        return self.T[rows, 1:degree + 1] / self.sigma[:degree]
+
     # --- factorization -----------------------------------------------------
-    def _prepare(self, degree: int) -> _Degree:
+    def factor(self, degree: int) -> DegreeFactor:
+        """The per-degree factorization (cached)."""
         got = self._cache.get(degree)
         if got is not None:
             return got
-        n = self._dim(degree)
-        rows = slice(1, degree + 1) if self.intercept else slice(0, degree + 1)
+        n = self.dim(degree)
         sig = self.sigma[:degree]
         if degree and np.any(sig <= 0):
-            raise ParameterError(message(f"x in the {self.label}", "at least two distinct values", "one"))
-        K = self.T[rows, 1:degree + 1] / sig if degree else np.zeros((n, 0))
+            raise ParameterError(message(f"x in the {self.label}", "at least two distinct x values", "one"))
+        K = self.power_map(degree) if degree else np.zeros((n, 0))
         g = self.g[:n]
         exact0 = None
         if self.rank >= n:
             R = self.L[:n, :n].T
             q = self.qfull[:n]
             A = R @ K
-            exact0 = self._exact0(degree, q)
+            exact0 = self.exact_solution(degree, q)
         else:
             self._warn_rank(degree)
             lam_, Q = np.linalg.eigh(self.G[:n, :n])
@@ -186,13 +217,13 @@ class FoldSolver:
         else:
             U, s, Vt = np.zeros((A.shape[0], 0)), np.zeros(0), np.zeros((0, 0))
         RiU = self.Rinv[:n, :n] @ U if (R is not None and degree) else None
-        got = _Degree(R, K, U, s, Vt, U.T @ q, q, exact0, RiU)
+        got = DegreeFactor(R, K, U, s, Vt, U.T @ q, q, exact0, RiU)
         self._cache[degree] = got
         return got
 
-    def _exact0(self, degree: int, q: np.ndarray) -> np.ndarray:
+    def exact_solution(self, degree: int, q: np.ndarray) -> np.ndarray:
         """The lambda = 0 solution: R^-1 q, or its projection for through-origin models."""
-        n = self._dim(degree)
+        n = self.dim(degree)
         Ri = self.Rinv[:n, :n]
         if self.intercept:
             return Ri @ q
@@ -200,10 +231,6 @@ class FoldSolver:
             return np.zeros(1)
         nv = self.nfull[:n]
         return Ri @ (q - nv * (nv @ q) / (nv @ nv))
-
-    def _K(self, degree: int) -> np.ndarray:
-        rows = slice(1, degree + 1) if self.intercept else slice(0, degree + 1)
-        return self.T[rows, 1:degree + 1] / self.sigma[:degree]
 
     def _warn_rank(self, degree: int) -> None:
         if not self._warned:
@@ -218,46 +245,31 @@ class FoldSolver:
     # --- solutions ----------------------------------------------------------
     def singular_values(self, degree: int) -> np.ndarray:
         """Singular values of the standardized design (their squares are X'WX's eigenvalues)."""
-        return self._prepare(check_degree(degree, self.D)).s.copy()
+        return self.factor(degree).s.copy()
 
-    def coefficients(self, degree: int, lams) -> np.ndarray:
-        """Legendre coefficients (working coordinates), shape (len(lams), degree + 1)."""
-        degree = check_degree(degree, self.D)
-        lams = check_lambdas(lams)
-        f = self._prepare(degree)
-        n = self._dim(degree)
-        out = np.zeros((lams.size, degree + 1))
-        if n == 0 or degree == 0 and not self.intercept:
-            theta_w = np.zeros((lams.size, n))
+    def coefficients(self, degree: int, lams: np.ndarray) -> np.ndarray:
+        """Ridge Legendre coefficients (working coordinates), shape (len(lams), degree + 1)."""
+        lams = np.asarray(lams, dtype=float)
+        f = self.factor(degree)
+        n = self.dim(degree)
+        if n == 0 or degree == 0:
+            return self.assemble(np.zeros((lams.size, 0)), degree)
+        filt = ridge_filter(f.s ** 2, lams)
+        if f.R is not None:
+            theta_w = (filt * f.Uq) @ f.RiU.T                     # (nl, n)
+            zero = lams == 0
+            if zero.any():
+                theta_w[zero] = f.exact0
         else:
-            s2 = f.s ** 2
             with np.errstate(divide="ignore", invalid="ignore"):
-                filt = s2 / (s2 + lams[:, None])
-            if f.R is not None:
-                theta_w = (filt * f.Uq) @ f.RiU.T                 # (nl, n)
-                zero = lams == 0
-                if zero.any():
-                    theta_w[zero] = f.exact0
-            else:
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    inv = np.where(f.s > 0, f.s / (s2 + lams[:, None]), 0.0)
-                b = (inv * f.Uq) @ f.Vt                           # (nl, d)
-                theta_w = b @ f.K.T
-        if self.intercept:
-            out[:, 1:] = theta_w
-            out[:, 0] = self._ycw - theta_w @ self.mean[1:degree + 1]
-        else:
-            out[:, :] = theta_w
-        return out
+                b = (np.where(f.s > 0, filt / f.s, 0.0) * f.Uq) @ f.Vt   # (nl, d)
+            theta_w = b @ f.K.T
+        return self.assemble(theta_w, degree)
 
-    def effective_df(self, degree: int, lams) -> np.ndarray:
+    def effective_df(self, degree: int, lams: np.ndarray) -> np.ndarray:
         """sum s_j^2 / (s_j^2 + lambda) (ESL eq. 3.50), plus one for the intercept."""
-        f = self._prepare(check_degree(degree, self.D))
-        lams = check_lambdas(lams)
-        s2 = f.s ** 2
-        with np.errstate(divide="ignore", invalid="ignore"):
-            filt = np.where(s2 > 0, s2 / (s2 + lams[:, None]), 0.0)
-        return filt.sum(axis=1) + (1.0 if self.intercept else 0.0)
+        f = self.factor(degree)
+        return ridge_filter(f.s ** 2, lams).sum(axis=-1) + (1.0 if self.intercept else 0.0)
 
     @staticmethod
     def sse(M: np.ndarray, theta: np.ndarray) -> np.ndarray:
@@ -273,142 +285,44 @@ class FoldSolver:
         return np.maximum(M[-1, -1] - 2.0 * (theta @ g) + quad, 0.0)
 
 
-@dataclass(frozen=True)
-class GradientDescentResult:
-    """Outcome of plain batch gradient descent on the standardized ridge cost.
-
-    Attributes
-    ----------
-    intercept : float
-    coef : ndarray of shape (degree,)
-        Coefficients on the standardized (normalized) powers.
-    theta : ndarray of shape (degree + 1,)
-        The same curve as Legendre coefficients of mapped x (raw y).
-    cost : ndarray of shape (iterations + 1,)
-        J after each step, J = (1/2m) [sum w (y - yhat)^2 + lambda ||b||^2], m = sum w.
-    closed_form_cost : float
-        J at the closed-form minimizer.
-    diverged : bool
-    message : str
-    """
-
-    intercept: float
-    coef: np.ndarray = field(repr=False)
-    theta: np.ndarray = field(repr=False)
-    cost: np.ndarray = field(repr=False)
-    closed_form_cost: float
-    diverged: bool
-    learning_rate: float
-    max_stable_rate: float
-    message: str
-
-    def to_dict(self) -> dict:
-        return {"intercept": self.intercept, "coef": self.coef.tolist(),
-                "cost": self.cost.tolist(), "closed_form_cost": self.closed_form_cost,
-                "diverged": self.diverged, "learning_rate": self.learning_rate,
-                "max_stable_rate": self.max_stable_rate, "message": self.message}
-
-
-def gradient_descent(solver: FoldSolver, degree: int, lam: float, *, learning_rate: float,
-                     iterations: int = 1000) -> GradientDescentResult:
-    """Batch gradient descent from zeros on J(b0, b) = (1/2m)[SSE + lambda ||b||^2].
-
-    Works from the statistics (Z'WZ = K'GcK and Z'Wy = K'g), so it costs
-    O(d^2) per step whatever n is. Converges when the learning rate is below
-    2 / L with L = (s_max^2 + lambda) / m the largest curvature; otherwise the
-    cost grows and ``diverged`` is set with a message saying so.
-    """
-    if not solver.intercept:
-        raise ParameterError("Gradient descent: expected an intercept model, got a through-origin one.")
-    degree = check_degree(degree, solver.D)
-    lam = float(check_lambdas(lam)[0])
-    if not (learning_rate > 0 and np.isfinite(learning_rate)):
-        raise ParameterError(message("Parameter 'learning_rate'", "a positive number", learning_rate))
-    if not (isinstance(iterations, (int, np.integer)) and 1 <= iterations <= 10_000_000):
-        raise ParameterError(message("Parameter 'iterations'", "an integer from 1 to 10000000", iterations))
-    f = solver._prepare(degree)
-    m = solver.W
-    ZZ = f.K.T @ solver.G[:degree, :degree] @ f.K
-    Zy = f.K.T @ solver.g[:degree]
-    ybar = solver._ycw
-    b_cf = (f.s / (f.s ** 2 + lam) * f.Uq) @ f.Vt if degree else np.zeros(0)
-    L = (float(f.s.max() ** 2) if degree else 0.0) + lam
-    max_rate = 2.0 * m / max(L, m) if degree else 2.0
-    b0, b = 0.0, np.zeros(degree)
-    # J(b0, b) = (1/2m) [yyc - 2 b'Zy + b'ZZ b + m (ybar - b0)^2 + lam b'b]
-    def cost(b0_, b_):
-        return (-2 * b_ @ Zy + b_ @ ZZ @ b_ + m * (ybar - b0_) ** 2 + lam * b_ @ b_) / (2 * m)
-
-    base = solver.yy_centred / (2 * m)
-    costs = np.empty(iterations + 1)
-    costs[0] = cost(b0, b) + base
-    diverged = False
-    for it in range(1, iterations + 1):
-        g0 = -(ybar - b0)
-        gb = (ZZ @ b - Zy + lam * b) / m
-        b0 -= learning_rate * g0
-        b = b - learning_rate * gb
-        costs[it] = cost(b0, b) + base
-        if not np.isfinite(costs[it]) or costs[it] > 1e6 * max(costs[0], 1e-300):
-            costs[it + 1:] = np.nan
-            diverged = True
-            break
-    closed = cost(ybar, b_cf) + base
-    theta = np.zeros(degree + 1)
-    theta[1:] = f.K @ b
-    theta[0] = b0 - theta[1:] @ solver.mean[1:degree + 1] + solver.offset
-    if diverged:
-        msg = (f"Gradient descent diverged at step {it}: learning rate {learning_rate:g} is too "
-               f"large for this design; it converges below about {max_rate:.3g}.")
-    else:
-        gap = costs[iterations] - closed
-        msg = (f"After {iterations} steps the cost is {costs[iterations]:.6g}, "
-               f"{gap:.3g} above the closed-form minimum {closed:.6g}.")
-    return GradientDescentResult(b0 + solver.offset, b, theta, costs, float(closed), diverged,
-                                 float(learning_rate), float(max_rate), msg)
-
-
 class FoldBatch:
-    """The same degree solved for many folds at once (stacked arrays, no Python loop per fold).
+    """The same degree solved for many training sets at once (stacked arrays, no Python loop).
 
-    Folds on the rank-deficient path are solved one by one and filled in.
+    Solvers on the rank-deficient path are solved one by one and filled in.
     """
 
     def __init__(self, solvers: list[FoldSolver], degree: int):
         self.solvers = solvers
-        self.degree = degree = check_degree(degree, solvers[0].D)
+        self.degree = degree
         self.intercept = solvers[0].intercept
-        self.n = n = solvers[0]._dim(degree)
+        self.n = n = solvers[0].dim(degree)
         self.RiU = self.Uq = self.s2 = self.exact0 = None
         self.slow = [i for i, sv in enumerate(solvers) if sv.rank < n]
         for i in self.slow:
-            solvers[i]._prepare(degree)      # warns once, caches the fallback
+            solvers[i].factor(degree)      # warns once, caches the fallback
         if n and degree:
-            # rank-deficient folds borrow a sound fold's shapes here and are overwritten later
+            # rank-deficient sets borrow a sound one's shapes here and are overwritten later
             donor = next((sv for sv in solvers if sv.rank >= n), None)
             fast = [sv if sv.rank >= n else donor for sv in solvers]
-            if donor is None:                    # every fold is rank deficient
-                self.RiU = self.Uq = self.s2 = self.exact0 = None
+            if donor is None:                    # every set is rank deficient
                 self.slow = list(range(len(solvers)))
             else:
                 if any(np.any(sv.sigma[:degree] <= 0) for sv in fast):
-                    raise ParameterError(message("x in the training rows", "at least two distinct values", "one"))
+                    raise ParameterError(message("x in the training rows", "at least two distinct x values", "one"))
                 R = np.stack([sv.L[:n, :n].T for sv in fast])
                 Ri = np.stack([sv.Rinv[:n, :n] for sv in fast])
-                K = np.stack([sv._K(degree) for sv in fast])
+                K = np.stack([sv.power_map(degree) for sv in fast])
                 q = np.stack([sv.qfull[:n] for sv in fast])
                 U, sv_, _ = np.linalg.svd(np.matmul(R, K), full_matrices=False)
                 self.RiU = np.matmul(Ri, U)
                 self.Uq = np.matmul(np.swapaxes(U, 1, 2), q[:, :, None])[..., 0]
                 self.s2 = sv_ ** 2
-                self.exact0 = np.stack([sv._exact0(degree, qq) for sv, qq in zip(fast, q)])
+                self.exact0 = np.stack([sv.exact_solution(degree, qq) for sv, qq in zip(fast, q)])
         self.mean = np.stack([sv.mean[1:degree + 1] for sv in solvers])
-        self.ycw = np.array([sv._ycw for sv in solvers])
+        self.ycw = np.array([sv.response_mean for sv in solvers])
 
     def coefficients(self, lams: np.ndarray) -> np.ndarray:
-        """Legendre coefficients in working coordinates, shape (folds, len(lams), degree + 1).
-
-        ``lams`` must already be a validated float array (``check_lambdas``)."""
+        """Legendre coefficients in working coordinates, shape (sets, len(lams), degree + 1)."""
         F, d = len(self.solvers), self.degree
         out = np.zeros((F, lams.size, d + 1))
         if d == 0 or self.n == 0:
@@ -419,8 +333,7 @@ class FoldBatch:
             for i in range(F):
                 out[i] = self.solvers[i].coefficients(d, lams)
             return out
-        with np.errstate(divide="ignore", invalid="ignore"):
-            filt = self.s2[:, None, :] / (self.s2[:, None, :] + lams[None, :, None])
+        filt = ridge_filter(self.s2, lams)                              # (F, nl, n)
         theta_w = np.matmul(filt * self.Uq[:, None, :], np.swapaxes(self.RiU, 1, 2))
         zero = lams == 0
         if zero.any():
@@ -434,12 +347,34 @@ class FoldBatch:
             out[i] = self.solvers[i].coefficients(d, lams)
         return out
 
+    def effective_df(self, lams: np.ndarray) -> np.ndarray:
+        """df(lambda) of every set, shape (sets, len(lams))."""
+        if self.s2 is None:
+            return np.stack([sv.effective_df(self.degree, lams) for sv in self.solvers])
+        out = ridge_filter(self.s2, lams).sum(axis=-1) + (1.0 if self.intercept else 0.0)
+        for i in self.slow:
+            out[i] = self.solvers[i].effective_df(self.degree, lams)
+        return out
+
     @staticmethod
     def sse(M: np.ndarray, theta: np.ndarray) -> np.ndarray:
-        """Weighted SSE per fold and lambda: M (folds, p, p) working stats, theta (folds, nl, n)."""
+        """Weighted SSE per set and lambda: M (sets, p, p) working stats, theta (sets, nl, n)."""
         n = theta.shape[2]
         G = M[:, :n, :n]
         g = M[:, :n, -1]
         quad = np.sum(np.matmul(theta, G) * theta, axis=2)
         lin = np.sum(theta * g[:, None, :], axis=2)
         return np.maximum(M[:, -1, -1][:, None] - 2.0 * lin + quad, 0.0)
+
+
+def solve_sets(solvers: list[FoldSolver], degree: int, lams: np.ndarray, penalty: str = "ridge",
+               mix: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
+    """Working coefficients (S, nl, d + 1) and effective df (S, nl) of several training sets
+    under one penalty: the one place a penalty name turns into a solver."""
+    if penalty == "ridge":
+        if len(solvers) == 1:
+            sv = solvers[0]
+            return sv.coefficients(degree, lams)[None], sv.effective_df(degree, lams)[None]
+        batch = FoldBatch(solvers, degree)
+        return batch.coefficients(lams), batch.effective_df(lams)
+    return penalized_coefficients(solvers, degree, lams, mix)

@@ -9,7 +9,7 @@ far too large to load, without the rows:
 | ``created``, ``software`` | time of writing; ``{"name", "version"}`` |
 | ``data`` | ``file``, ``x_column``, ``y_column``, ``columns_sha256`` |
 | ``domain`` | ``center``, ``half_width``: t = (x - center) / half_width |
-| ``max_degree``, ``y_shift``, ``intercept`` | the accumulation's highest Legendre degree D, the response shift y0, the model |
+| ``max_degree``, ``y_shift``, ``intercept``, ``weighted`` | the accumulation's highest Legendre degree D, the response shift y0, the model, whether rows carried weights |
 | ``folds`` | ``scheme``, ``k``, ``repeats``, ``seed``, ``test_fraction``, ``n_rows``, ``n_test`` |
 | ``cells`` | one entry per cell in order (repeat-major folds, then the sealed cell): ``repeat``, ``fold`` (null for the sealed cell), ``count``, ``gram`` ((D+2) x (D+2) matrix of sum w b b', b = [P_0(t)..P_D(t), y - y0]) |
 """
@@ -23,18 +23,24 @@ from pathlib import Path
 import numpy as np
 
 from .basis import Domain
-from .errors import DataError, message
+from .engine import FoldEngine, ScoringEngine, engine_from_moments
+from .errors import DataError, ParameterError, message
 from .files import write_atomic
 from .folds import FoldPlan
 from .moments import Moments
-from .select import Engine
 
 __all__ = ["save_stats", "load_stats", "FORMAT"]
 
 FORMAT = "curvewright-statistics"
 
 
-def save_stats(path, engine: Engine, data: dict, *, force: bool = False) -> Path:
+def save_stats(path, engine: ScoringEngine, data: dict, *, force: bool = False) -> Path:
+    """Write an engine's per-fold statistics (k-fold engines only: leave-one-out needs the rows)."""
+    if not isinstance(engine, FoldEngine):
+        raise ParameterError(message(
+            "Statistics file", "k-fold cross-validation (the file holds per-fold sums)",
+            f"{engine.plan.scheme} scoring",
+            "Leave-one-out needs the rows themselves; sweep with k-fold folds to save statistics"))
     m, plan = engine.moments, engine.plan
     k, R = plan.k, plan.repeats
     cells = []
@@ -48,7 +54,7 @@ def save_stats(path, engine: Engine, data: dict, *, force: bool = False) -> Path
            "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
            "software": {"name": "curvewright", "version": __version__}, "data": data,
            "domain": m.domain.to_dict(), "max_degree": m.max_degree, "y_shift": m.y_shift,
-           "intercept": engine.intercept, "folds": plan.to_dict(), "cells": cells}
+           "intercept": engine.intercept, "weighted": bool(m.weighted), "folds": plan.to_dict(), "cells": cells}
     return write_atomic(path, json.dumps(doc), force=force)
 
 
@@ -59,8 +65,12 @@ def _need(doc, key, kind, where=""):
     return doc[key]
 
 
-def load_stats(path) -> tuple[Engine, dict]:
-    """(engine, data description) from a statistics file, checked field by field."""
+def load_stats(path, *, penalty: str = "ridge", mix: float = 0.5) -> tuple[ScoringEngine, dict]:
+    """(engine, data description) from a statistics file, checked field by field.
+
+    ``penalty`` and ``mix`` choose how the statistics are scored (any penalty works
+    from the same sums).
+    """
     p = Path(path)
     if not p.is_file():
         raise DataError(message(f"Statistics file '{p}'", "an existing file", "nothing at that path"))
@@ -91,9 +101,15 @@ def load_stats(path) -> tuple[Engine, dict]:
         raise DataError(message("Statistics file field 'cells/gram'", f"finite {D + 2} x {D + 2} matrices",
                                 f"shape {gram.shape}"))
     domain = Domain(float(dom["center"]), float(dom["half_width"]))
-    mom = Moments(domain, D, float(doc.get("y_shift", 0.0)), gram, counts)
+    # files written before the 'weighted' field existed: rows carried weights when the
+    # total weight differs from the row count (their only trace)
+    weighted = doc.get("weighted")
+    if not isinstance(weighted, bool):
+        weighted = not np.isclose(gram[:, 0, 0].sum(), counts.sum())
+    mom = Moments(domain, D, float(doc.get("y_shift", 0.0)), gram, counts, weighted)
     plan = FoldPlan(folds.get("scheme", "kfold"), k, R, int(folds.get("seed", 0)),
                     np.zeros((R, 0), dtype=np.int16), np.zeros(0, dtype=bool),
                     float(folds.get("test_fraction", 0.0)), n_rows=int(folds.get("n_rows", counts.sum())),
                     n_sealed=int(counts[-1]))
-    return Engine(mom, plan, bool(doc.get("intercept", True))), doc.get("data", {})
+    engine = engine_from_moments(mom, plan, penalty=penalty, mix=mix, intercept=bool(doc.get("intercept", True)))
+    return engine, doc.get("data", {})

@@ -25,14 +25,16 @@ from pathlib import Path
 import numpy as np
 
 from .basis import Domain
-from .errors import DataError, ParameterError, message
-from .folds import make_plan
+from .engine import engine_from_moments
+from .errors import DataError, message
+from .folds import cell_labels, make_plan
 from .moments import Accumulator
-from .select import Engine, Surface, cell_labels, surface_from_engine
-from .solve import check_degree
-from .table import columns_digest, pick_column, text_format, unit_of
+from .params import check, combination
+from .select import Surface, surface_from_engine
+from .table import check_positive, columns_digest, parse_numbers, pick_column, read_frame, text_format, unit_of
+from .validate import single_x
 
-__all__ = ["Scan", "scan_file", "sweep_file", "iter_chunks"]
+__all__ = ["Scan", "scan_file", "sweep_file", "iter_chunks", "chunk_columns"]
 
 
 @dataclass(frozen=True)
@@ -101,9 +103,7 @@ def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
             offset += len(frame)
         return
     if suffix in (".xlsx", ".xlsm"):
-        from .table import _read_frame
-
-        frame, _, _ = _read_frame(path)
+        frame, _, _ = read_frame(path)
         cols = [str(c) for c in frame.columns]
         frame.columns = cols
         names = {r: pick_column(cols, s, r, path.name) for r, s in specs.items() if s is not None}
@@ -128,14 +128,13 @@ def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
                                 "Check the delimiter and quoting of that line")) from None
 
 
-def _columns(names, offset, frame, decimal, fname, missing):
-    """Validated float columns of one chunk and the mask of complete rows."""
-    from .table import _numbers
-
+def chunk_columns(names, offset, frame, decimal, fname, missing):
+    """Validated float columns of one chunk and the mask of complete rows:
+    (x, y, weights or None, keep mask, dict of every role's kept values)."""
     vals, miss = {}, np.zeros(len(frame), dtype=bool)
     for role in ("x", "y", "weights", "uncertainty"):
         if role in names:
-            v, m = _numbers(frame, names[role], fname, missing, decimal, offset=offset)
+            v, m = parse_numbers(frame, names[role], fname, missing, decimal, offset=offset)
             vals[role] = v
             miss |= m
     if miss.any() and missing == "refuse":
@@ -144,8 +143,6 @@ def _columns(names, offset, frame, decimal, fname, missing):
         raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
                                 f"{len(rows)} row(s) with empty cells in this part of the file",
                                 "Fill them in, or pass --missing drop to leave those rows out"))
-    from .table import check_positive
-
     keep = ~miss
     out = {r: v[keep] for r, v in vals.items()}
     rows = np.flatnonzero(keep) + offset + 2
@@ -169,7 +166,7 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "ref
     lo, hi = np.inf, -np.inf
     names = {}
     for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
-        xv, yv, w, keep, cols = _columns(names, offset, frame, decimal, path.name, missing)
+        xv, yv, w, keep, cols = chunk_columns(names, offset, frame, decimal, path.name, missing)
         n_read += len(frame)
         n_used += xv.size
         dropped.extend((np.flatnonzero(~keep) + offset + 2).tolist())
@@ -182,8 +179,7 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "ref
     if n_used == 0:
         raise DataError(message(f"File '{path.name}'", "at least one complete row", "none"))
     if require_spread and not lo < hi:
-        raise DataError(message(f"File '{path.name}' column '{names['x']}'", "at least two distinct x values",
-                                f"only {lo!r}", "A curve cannot be fitted against a single x value"))
+        raise single_x(f"File '{path.name}' column '{names['x']}'", lo)
     fh = hashlib.sha256()
     with path.open("rb") as f:
         for block in iter(lambda: f.read(1 << 20), b""):
@@ -195,26 +191,30 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "ref
 
 def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
                repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
-               missing: str = "refuse", chunk_rows: int = 500_000, progress=None) -> tuple[Surface, Scan]:
+               penalty: str = "ridge", mix: float = 0.5, missing: str = "refuse", chunk_rows: int = 500_000,
+               progress=None) -> tuple[Surface, Scan]:
     """``core.sweep`` over a file read in chunks; returns (surface, scan).
 
+    The same folds, statistics and engine (``core.engine.engine_from_moments``,
+    any penalty) as the in-memory sweep of the same rows. Grouped, explicit and
+    leave-one-out folds need the rows and are not offered here.
     ``progress(rows_done, rows_total, seconds)`` is called after every chunk of the
     statistics pass when given.
     """
-    degrees = np.atleast_1d(np.asarray(degrees))
-    if degrees.size == 0:
-        raise ParameterError(message("Parameter 'degrees'", "at least one degree", "none"))
-    max_degree = max(check_degree(int(d)) for d in degrees)
+    p = check(degrees=degrees, lambdas=lambdas, folds=folds, repeats=repeats, seed=seed,
+              test_fraction=test_fraction, intercept=intercept, chunk_rows=chunk_rows)
+    combination(penalty=penalty, mix=mix)
+    max_degree = int(p.degrees.max())
     sc = scan_file(path, x=x, y=y, weights=weights, uncertainty=uncertainty, missing=missing,
-                   chunk_rows=chunk_rows)
-    plan = make_plan(sc.rows_used, folds=folds, repeats=repeats, seed=seed, test_fraction=test_fraction)
+                   chunk_rows=p.chunk_rows)
+    plan = make_plan(sc.rows_used, folds=p.folds, repeats=p.repeats, seed=p.seed, test_fraction=p.test_fraction)
     labels = cell_labels(plan, max_degree)
     acc = Accumulator(Domain.from_range(sc.x_min, sc.x_max), max_degree, plan.repeats * plan.k + 1)
     specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
     pos = 0
     t0 = time.perf_counter()
-    for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
-        xv, yv, w, _, _ = _columns(names, offset, frame, decimal, Path(path).name, missing)
+    for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=p.chunk_rows):
+        xv, yv, w, _, _ = chunk_columns(names, offset, frame, decimal, Path(path).name, missing)
         acc.update(xv, yv, w, labels[:, pos:pos + xv.size])
         pos += xv.size
         if progress is not None:
@@ -222,5 +222,5 @@ def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, 
     if pos != sc.rows_used:
         raise DataError(message(f"File '{Path(path).name}'", f"{sc.rows_used} rows on the second read",
                                 pos, "The file changed while it was being read"))
-    engine = Engine(acc.result(), plan, intercept)
-    return surface_from_engine(engine, degrees, lambdas), sc
+    engine = engine_from_moments(acc.result(), plan, penalty=penalty, mix=mix, intercept=p.intercept)
+    return surface_from_engine(engine, p.degrees, p.lambdas), sc

@@ -16,8 +16,10 @@ import numpy as np
 
 from .errors import DataError, message
 from .validate import MAX_ABS
+from .validate import require_spread as spread
 
-__all__ = ["Table", "Column", "read_table", "unit_of"]
+__all__ = ["Table", "Column", "read_table", "read_frame", "parse_numbers", "pick_column", "text_format",
+           "exclude_rows", "check_positive", "columns_digest", "unit_of"]
 
 _UNIT = re.compile(r"^\s*(?P<name>.*?)\s*[\[(](?P<unit>[^\])]+)[\])]\s*$")
 
@@ -122,7 +124,8 @@ def columns_digest(digests: dict) -> str:
     return h.hexdigest()
 
 
-def _read_frame(path: Path, sheet=None):
+def read_frame(path: Path, sheet=None):
+    """(frame of text cells, raw bytes, notices) of one file; every problem named."""
     import pandas as pd
 
     if not path.exists():
@@ -197,7 +200,7 @@ def pick_column(columns, spec, role: str, fname: str) -> str:
                             "no such column", "Pass --" + role + " with a column name or position"))
 
 
-def _numbers(frame, col: str, fname: str, missing: str, decimal: str = ".", offset: int = 0):
+def parse_numbers(frame, col: str, fname: str, missing: str, decimal: str = ".", offset: int = 0):
     """Float values and a missing-mask of one column; the first bad cell raises with its row.
 
     ``offset`` is the number of data rows before this frame (for chunked reading)."""
@@ -262,7 +265,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     path = Path(path)
     if missing not in ("refuse", "drop"):
         raise DataError(message("Option --missing", "'refuse' or 'drop'", missing))
-    frame, raw, notices = _read_frame(path, sheet)
+    frame, raw, notices = read_frame(path, sheet)
     fname = path.name
     cols = [str(c) for c in frame.columns]
     # pandas renames a repeated header "a" to "a.1"; report the original name
@@ -278,7 +281,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     decimal = frame.attrs.get("decimal", ".")
     roles = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
     chosen = {r: pick_column(frame.columns, s, r, fname) for r, s in roles.items() if s is not None}
-    numeric = {r: _numbers(frame, c, fname, missing, decimal) for r, c in chosen.items()}
+    numeric = {r: parse_numbers(frame, c, fname, missing, decimal) for r, c in chosen.items()}
     any_missing = np.zeros(len(frame), dtype=bool)
     for r, (v, m) in numeric.items():
         any_missing |= m
@@ -308,9 +311,8 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
             wname = chosen[role]
             v = check_positive(numeric[role][0][keep], role, wname, fname, rows)
             w = v if role == "weights" else 1.0 / v ** 2
-    if require_spread and np.unique(xv).size < 2:
-        raise DataError(message(f"File '{fname}' column '{chosen['x']}'", "at least two distinct x values",
-                                f"only {float(xv[0])!r}", "A curve cannot be fitted against a single x value"))
+    if require_spread:
+        spread(xv, f"File '{fname}' column '{chosen['x']}'")
     digests = {r: hashlib.sha256(np.ascontiguousarray(numeric[r][0][keep]).tobytes())
                for r in ("x", "y", "weights", "uncertainty") if r in numeric}
     h = columns_digest(digests)

@@ -21,11 +21,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .basis import Domain, legendre_columns, legval
+from .basis import Domain, legendre_columns
 from .errors import ParameterError, message
 from .fit import fit as _fit
-from .penalized import check_penalty, penalized_coefficients
-from .solve import FoldSolver, check_degree, check_lambdas
+from .params import check, combination
+from .penalties import ridge_filter
+from .solve import FoldSolver, solve_sets
 from .validate import check_xyw
 
 __all__ = ["bootstrap_curves", "bootstrap_interval", "bias_variance", "bias_variance_from_sets", "BiasVariance"]
@@ -42,11 +43,9 @@ def _design(x, y, w, degree, domain):
 def bootstrap_curves(x, y, degree: int, lam: float, grid, *, B: int = 400, seed: int = 0, weights=None,
                      groups=None, intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> np.ndarray:
     """Curves of B bootstrap refits at ``grid``: ndarray of shape (B, len(grid))."""
-    degree = check_degree(degree)
-    lam = float(check_lambdas(lam)[0])
-    mix_ = check_penalty(penalty, mix)
-    if not (isinstance(B, (int, np.integer)) and 10 <= B <= 100_000):
-        raise ParameterError(message("Parameter 'B'", "an integer from 10 to 100000", B))
+    p = check(degree=degree, lam=lam, B=B, seed=seed, intercept=intercept)
+    degree, lam, B = p.degree, p.lam, p.B
+    mix_ = combination(penalty=penalty, mix=mix)
     x, y, w = check_xyw(x, y, weights)
     domain = Domain.from_range(x.min(), x.max())
     D, y0 = _design(x, y, w, degree, domain)
@@ -63,14 +62,10 @@ def bootstrap_curves(x, y, degree: int, lam: float, grid, *, B: int = 400, seed:
     for b in range(B):
         try:
             sv = FoldSolver(grams[b], domain, y0, intercept, label="bootstrap resample")
-            if penalty == "ridge":
-                theta = sv.coefficients(degree, [lam])[0]
-            else:
-                theta = penalized_coefficients([sv], degree, np.array([lam]), mix_)[0][0, 0]
+            theta = solve_sets([sv], degree, np.array([lam]), penalty, mix_)[0][0, 0]
         except (ParameterError, np.linalg.LinAlgError):
             continue            # a resample with a single distinct x cannot be fitted
-        theta[0] += sv.offset
-        out[b] = Pg @ theta
+        out[b] = Pg @ sv.raw(theta)
     return out[np.isfinite(out).all(axis=1)]
 
 
@@ -80,8 +75,7 @@ def bootstrap_interval(x, y, degree: int, lam: float, grid, *, interval: str = "
     """(fit, lower, upper) at ``grid`` by the percentile bootstrap (see module docstring)."""
     if interval not in ("confidence", "prediction"):
         raise ParameterError(message("Parameter 'interval'", "'confidence' or 'prediction'", repr(interval)))
-    if not (0 < level < 1):
-        raise ParameterError(message("Parameter 'level'", "a number between 0 and 1", level))
+    level = check(level=level).level
     x, y, w = check_xyw(x, y, weights)
     grid = np.asarray(grid, dtype=float)
     f = _fit(x, y, degree, lam, weights=weights, intercept=intercept, penalty=penalty, mix=mix)
@@ -152,10 +146,9 @@ def smoother(x, w, degree: int, lam: float, grid, *, intercept: bool = True, dom
     G[:degree + 1, :degree + 1] = (P * w[:, None]).T @ P
     G[:degree + 1, -1] = G[-1, :degree + 1] = 0.0
     sv = FoldSolver(G, domain, 0.0, intercept)
-    f = sv._prepare(degree)
+    f = sv.factor(degree)
     Pg = legendre_columns(domain.map(np.asarray(grid, dtype=float)), degree)
-    s2 = f.s ** 2
-    filt = np.where(s2 > 0, s2 / (s2 + lam), 0.0) if degree else np.zeros(0)
+    filt = ridge_filter(f.s ** 2, np.array([float(lam)]))[0] if degree else np.zeros(0)
     if intercept:
         mean = sv.mean[1:degree + 1]
         Pc, Pgc = P[:, 1:] - mean, Pg[:, 1:] - mean
@@ -173,8 +166,8 @@ def bias_variance(x, truth, noise_sd: float, degree: int, lam: float, grid=None,
     ``truth`` may be a fitted curve's ``predict`` to study the chosen fit itself.
     """
     x, _, w = check_xyw(x, np.zeros_like(np.asarray(x, dtype=float)), weights)
-    if not (noise_sd >= 0 and np.isfinite(noise_sd)):
-        raise ParameterError(message("Parameter 'noise_sd'", "a finite number >= 0", noise_sd))
+    p = check(noise_sd=noise_sd, degree=degree, lam=lam, seed=seed)
+    noise_sd, degree, lam = p.noise_sd, p.degree, p.lam
     grid = np.linspace(x.min(), x.max(), 101) if grid is None else np.asarray(grid, dtype=float)
     S = smoother(x, w, degree, lam, grid, intercept=intercept)
     f_x, f_g = np.asarray(truth(x), dtype=float), np.asarray(truth(grid), dtype=float)

@@ -6,7 +6,7 @@ import numpy as np
 
 from .errors import DataError, message
 
-__all__ = ["check_xyw", "MAX_ABS"]
+__all__ = ["check_xyw", "require_spread", "single_x", "MAX_ABS"]
 
 MAX_ABS = 1e150
 
@@ -54,3 +54,15 @@ def check_xyw(x, y, weights=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         raise DataError(message(f"Column weights row {bad[0] + 1}", "a positive number",
                                 f"{w[bad[0]]:g}", "Drop the row or give it a positive weight"))
     return x, y, w
+
+
+def single_x(where: str, value) -> DataError:
+    """The one refusal for data whose x takes a single value (``where`` names file/column)."""
+    return DataError(message(where, "at least two distinct x values", f"only {float(value)!r}",
+                             "A curve cannot be fitted against a single x value"))
+
+
+def require_spread(x: np.ndarray, where: str = "Column x") -> None:
+    """Refuse x without two distinct values (the one place this data check lives)."""
+    if x.size and not x.min() < x.max():
+        raise single_x(where, x[0])

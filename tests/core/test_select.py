@@ -57,11 +57,13 @@ def test_sealed_test_rows_never_enter_cross_validation():
     assert plan.n_test == 60 and s.n_train == 240
     assert np.all(plan.labels[:, plan.test_mask] == -1)
     assert not s.test_revealed and "mse" not in s.sealed.to_dict()
-    mse = s.reveal_test(3, 1.0)
+    revealed = s.reveal_test(3, 1.0)
+    assert not s.test_revealed            # a surface is a value: the reveal makes a new one
+    mse = revealed.sealed.mse
     ref = core.fit(x[~plan.test_mask], y[~plan.test_mask], 3, 1.0)
     expect = np.mean((y[plan.test_mask] - ref.predict(x[plan.test_mask])) ** 2)
     assert mse == pytest.approx(expect, rel=1e-10)
-    d = s.to_dict()["sealed_test"]
+    d = revealed.to_dict()["sealed_test"]
     assert d["revealed"] and d["mse"] == mse and d["revealed_at"]
     again = core.sweep(x, y, range(0, 6), [1e-3, 1.0], folds=5, test_fraction=0.2, seed=3)
     assert np.array_equal(again.engine.plan.test_mask, plan.test_mask)

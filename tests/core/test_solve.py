@@ -60,7 +60,7 @@ def test_gradient_descent_converges_to_closed_form():
     assert not res.diverged
     assert res.cost[-1] == pytest.approx(res.closed_form_cost, rel=1e-10)
     assert np.all(np.diff(res.cost) <= 1e-12)          # cost never rises at a stable rate
-    np.testing.assert_allclose(res.theta, e.curve(3, 0.5), rtol=1e-6, atol=1e-9)
+    np.testing.assert_allclose(res.theta, e.curve(3, 0.5).coef, rtol=1e-6, atol=1e-9)
 
 
 def test_gradient_descent_too_large_rate_diverges_with_message():

@@ -1,4 +1,10 @@
-"""Lasso and elastic net from the Gram statistics, by coordinate descent (covariance updates).
+"""Penalties on the statistics: the ridge filter, and the lasso and elastic net by exact solvers.
+
+Ridge: on the standardized design A = U S V' (``core.solve``) the penalized fit
+keeps each singular component scaled by the filter factor s^2 / (s^2 + lambda)
+(``ridge_filter``; Hastie, Tibshirani & Friedman, ESL sec. 3.4.1).
+
+Lasso and elastic net, by coordinate descent (covariance updates) and an exact active-set method.
 
 Objective on the standardized powers (as for ridge, ``core.solve``):
 
@@ -31,25 +37,20 @@ import warnings
 
 import numpy as np
 
-from .errors import NumericalWarning, ParameterError, message
+from .errors import NumericalWarning
 
-__all__ = ["PENALTIES", "check_penalty", "coordinate_descent", "active_set", "penalized_coefficients"]
-
-PENALTIES = ("ridge", "lasso", "elastic")
+__all__ = ["ridge_filter", "coordinate_descent", "active_set", "penalized_coefficients", "MAX_CONDITION"]
 
 
-def check_penalty(penalty: str, mix: float) -> float:
-    """The mix implied by a penalty name (ridge 0, lasso 1, elastic as given)."""
-    if penalty not in PENALTIES:
-        raise ParameterError(message("Parameter 'penalty'", "'ridge', 'lasso' or 'elastic'", repr(penalty)))
-    if penalty == "ridge":
-        return 0.0
-    if penalty == "lasso":
-        return 1.0
-    mix = float(mix)
-    if not (0.0 < mix <= 1.0):
-        raise ParameterError(message("Parameter 'mix'", "a number in (0, 1]", mix))
-    return mix
+def ridge_filter(s2: np.ndarray, lams: np.ndarray) -> np.ndarray:
+    """Filter factors s^2 / (s^2 + lambda), shape (..., len(lams), len(s2)); 0 where s = 0.
+
+    ``s2`` may carry leading batch axes (folds): shape (..., d) gives (..., nl, d).
+    """
+    s2 = np.asarray(s2, dtype=float)[..., None, :]
+    lams = np.asarray(lams, dtype=float)[:, None]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(s2 > 0, s2 / (s2 + lams), 0.0)
 
 
 def coordinate_descent(G, c, lam, mix, *, tol=1e-13, max_sweeps=20000):
@@ -142,12 +143,12 @@ def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=100):
 
 
 def _condition(sv, degree) -> float:
-    s = sv._prepare(degree).s
+    s = sv.factor(degree).s
     return float((s.max() / s.min()) ** 2) if s.size and s.min() > 0 else float("inf")
 
 
 def _standardized(sv, degree):
-    f = sv._prepare(degree)
+    f = sv.factor(degree)
     s2 = f.s ** 2
     G = f.Vt.T @ (s2[:, None] * f.Vt)
     c = f.Vt.T @ (f.s * f.Uq)
@@ -163,7 +164,7 @@ def penalized_coefficients(solvers, degree: int, lams, mix: float):
     edf = np.ones((F, nl)) if solvers[0].intercept else np.zeros((F, nl))
     if degree == 0:
         for i, sv in enumerate(solvers):
-            out[i, :, 0] = sv._ycw if sv.intercept else 0.0
+            out[i] = sv.assemble(np.zeros((nl, 0)), 0)
         return out, edf
     probs = [_standardized(sv, degree) for sv in solvers]
     worst = max(_condition(sv, degree) for sv in solvers)
@@ -184,12 +185,7 @@ def penalized_coefficients(solvers, degree: int, lams, mix: float):
                       NumericalWarning, stacklevel=3)
     b = b.reshape(F, nl, -1)
     for i, (sv, (Gi, _, K)) in enumerate(zip(solvers, probs)):
-        theta_w = b[i] @ K.T
-        if sv.intercept:
-            out[i, :, 1:] = theta_w
-            out[i, :, 0] = sv._ycw - theta_w @ sv.mean[1:degree + 1]
-        else:
-            out[i] = theta_w
+        out[i] = sv.assemble(b[i] @ K.T, degree)
         for l_idx, lv in enumerate(lams):
             act = np.flatnonzero(b[i, l_idx])
             if act.size:

@@ -5,7 +5,7 @@ import pytest
 from sklearn.linear_model import ElasticNet
 
 import core
-from core.penalized import active_set, coordinate_descent
+from core.penalties import active_set, coordinate_descent
 
 
 def invented(n=200, seed=2):

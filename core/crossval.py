@@ -1,0 +1,99 @@
+"""Cross-validation of rows held in memory: rows -> fold plan -> one pass -> engine -> surface.
+
+The public entry points ``build_engine`` and ``sweep`` validate their parameters
+once (``core.params``) and their data once (``core.validate``); everything they
+call trusts its inputs. Streamed files (``core.stream``), many files or a Dask
+cluster (``core.distributed``) and statistics files (``core.statsfile``) feed the
+same ``core.engine.engine_from_moments``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .basis import Domain
+from .engine import ScoringEngine, engine_from_moments
+from .errors import DataError, message
+from .folds import cell_labels, make_plan, sealed_mask
+from .loo import build_loo_engine
+from .moments import accumulate
+from .params import check, combination
+from .select import Surface, surface_from_engine
+from .validate import check_xyw, require_spread
+
+__all__ = ["build_engine", "sweep"]
+
+
+def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int = 1, groups=None,
+                 fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
+                 intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> ScoringEngine:
+    """Assign folds and run the one pass; see ``sweep`` for the parameters.
+
+    The basis domain is the range of all rows (a choice of coordinates only:
+    standardization always uses the training rows), so a streamed file and
+    the same rows in memory give the same statistics.
+    """
+    x, y, w = check_xyw(x, y, weights)
+    p = check(max_degree=max_degree, intercept=intercept, seed=seed, test_fraction=test_fraction)
+    combination(penalty=penalty, mix=mix, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids)
+    require_spread(x)
+    wt = None if weights is None else w
+    if isinstance(folds, str):     # "loo", checked above
+        mask = sealed_mask(x.size, p.test_fraction, p.seed)
+        n_train = int(x.size - mask.sum())
+        if n_train < p.max_degree + 2:
+            raise DataError(message("Rows for leave-one-out", f"at least degree + 2 = {p.max_degree + 2} rows "
+                                    "outside the sealed test set", n_train,
+                                    "Lower the highest degree or use a smaller test fraction"))
+        return build_loo_engine(x, y, wt, mask, seed=p.seed, test_fraction=p.test_fraction,
+                                max_degree=p.max_degree, intercept=p.intercept)
+    plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
+                     seed=p.seed, test_fraction=p.test_fraction)
+    labels = cell_labels(plan, p.max_degree)
+    domain = Domain.from_range(x.min(), x.max())
+    mom = accumulate(x, y, labels=labels, n_cells=plan.repeats * plan.k + 1, domain=domain,
+                     max_degree=p.max_degree, weights=wt)
+    return engine_from_moments(mom, plan, penalty=penalty, mix=mix, intercept=p.intercept)
+
+
+def sweep(x, y, degrees, lambdas, *, folds: int | str = 10, repeats: int = 1, groups=None,
+          fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
+          intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> Surface:
+    """Cross-validate every degree and lambda from one pass over the rows.
+
+    Parameters
+    ----------
+    x, y : array_like of shape (n,)
+    degrees : iterable of int
+        Degrees 0..30 to score.
+    lambdas : array_like
+        Penalties >= 0 (0 = least squares).
+    folds : int or "loo"
+        k (default 10); ignored with ``fold_ids``. ``"loo"`` scores leave-one-out through
+        the hat matrix (``core.loo``: one standardization for all rows; ridge only, and
+        not with repeats, groups or fold_ids).
+    repeats : int
+        Repeated k-fold with independent shuffles.
+    groups : array_like of shape (n,), optional
+        Grouped folds: rows sharing a value stay together.
+    fold_ids : array_like of shape (n,), optional
+        Explicit fold of each row.
+    seed : int
+    weights : array_like of shape (n,), optional
+    test_fraction : float
+        Rows sealed away before folding (scored only by ``Surface.reveal_test``).
+    intercept : bool
+    penalty : {"ridge", "lasso", "elastic"}
+        Penalty on the standardized coefficients (``core.penalties``).
+    mix : float
+        Elastic-net share of the L1 term (0 < mix <= 1).
+
+    Returns
+    -------
+    Surface
+    """
+    p = check(degrees=degrees, lambdas=lambdas)
+    engine = build_engine(x, y, max_degree=int(p.degrees.max()), folds=folds, repeats=repeats, groups=groups,
+                          fold_ids=fold_ids, seed=seed, weights=weights, test_fraction=test_fraction,
+                          intercept=intercept, penalty=penalty, mix=mix)
+    return surface_from_engine(engine, p.degrees, p.lambdas)

@@ -1,0 +1,36 @@
+"""Every default the command line and the page share, in one place.
+
+The Python API keeps its own keyword defaults (they are part of its documented
+signatures); the command line and the page read these, so the two never disagree.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["MAX_DEGREE", "DEGREES", "LAMBDA_RANGE", "LAMBDA_COUNT", "FOLDS", "REPEATS", "SEED",
+           "TEST_FRACTION", "STREAM_BYTES", "CHUNK_ROWS", "LEARN_SIZES", "LEARN_REPEATS",
+           "BOOTSTRAP_B", "COVERAGE", "MAX_GRID", "MAX_CELLS", "lambda_grid"]
+
+MAX_DEGREE = 30                  # highest polynomial degree anywhere
+DEGREES = tuple(range(0, 16))    # degrees searched by default
+LAMBDA_RANGE = (1e-8, 1e6)       # positive part of the default lambda grid (log-spaced)
+LAMBDA_COUNT = 29                # points in that positive part; lambda = 0 is added
+FOLDS = 10
+REPEATS = 1
+SEED = 0
+TEST_FRACTION = 0.2              # share of rows sealed away before cross-validation
+STREAM_BYTES = 100 * 2**20       # CSV/TSV/Parquet files above this are streamed in chunks
+CHUNK_ROWS = 500_000             # rows per chunk when streaming
+LEARN_SIZES = tuple(np.round(np.linspace(0.1, 1.0, 10), 10))
+LEARN_REPEATS = 3
+BOOTSTRAP_B = 399
+COVERAGE = 0.95
+MAX_GRID = 1000                  # longest lambda grid accepted
+MAX_CELLS = 1_000_000            # folds x repeats x degrees x lambdas scored in one sweep
+
+
+def lambda_grid() -> np.ndarray:
+    """The default grid: 0 (least squares), then LAMBDA_COUNT log-spaced values over LAMBDA_RANGE."""
+    lo, hi = LAMBDA_RANGE
+    return np.concatenate([[0.0], np.logspace(np.log10(lo), np.log10(hi), LAMBDA_COUNT)])

@@ -1,0 +1,252 @@
+"""The scoring-engine contract: how any sweep is scored, whatever fed its statistics.
+
+An engine holds the one-pass statistics of a sweep (``core.moments``) and its
+fold plan, and answers, for any degree <= max_degree and lambdas >= 0:
+
+* ``scores``: held-out and training MSE per fold, shapes (n_folds, len(lams));
+* ``cv_summary``: mean CV MSE, its standard error, mean training MSE;
+* ``coefficients`` / ``curve``: the fit on all training rows (stable form, raw y);
+* ``effective_df``, ``train_mse``: of that fit; ``test_mse``: its sealed-test error.
+
+Attributes every engine has: ``plan``, ``penalty``, ``mix``, ``intercept``,
+``moments``, ``counts`` (held-out rows per fold), ``n_train``, ``n_test``.
+
+``engine_from_moments`` is the one constructor from statistics, used by the
+in-memory sweep, the streamed sweep, the Dask engine and statistics files.
+Leave-one-out (``core.loo``) is a subclass. Engines are values: nothing changes
+one after it is built; ``with_penalty`` returns a new engine.
+"""
+
+from __future__ import annotations
+
+import warnings
+from abc import ABC, abstractmethod
+
+import numpy as np
+
+from .curve import Curve
+from .errors import ParameterError, message
+from .folds import FoldPlan
+from .moments import Moments, complement_sums
+from .params import check, combination
+from .solve import FoldBatch, FoldSolver, solve_sets
+
+__all__ = ["ScoringEngine", "FoldEngine", "engine_from_moments", "fold_mean_se"]
+
+
+def fold_mean_se(cv: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Mean over folds (axis 0) and its SE: std (ddof = 1) over sqrt(number of finite folds)."""
+    if np.isfinite(cv).all():
+        F = cv.shape[0]
+        se = cv.std(axis=0, ddof=1) / np.sqrt(F) if F > 1 else np.full(cv.shape[1], np.nan)
+        return cv.mean(axis=0), se
+    F = np.sum(np.isfinite(cv), axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        return np.nanmean(cv, axis=0), np.nanstd(cv, axis=0, ddof=1) / np.sqrt(F)
+
+
+class ScoringEngine(ABC):
+    """What every engine answers (see module docstring).
+
+    Subclasses provide ``scores``; the all-training-rows answers (coefficients,
+    curve, effective df, training and sealed-test MSE) are shared here.
+    """
+
+    def __init__(self, moments: Moments, plan: FoldPlan, train_gram: np.ndarray, test_gram, *,
+                 penalty: str, mix: float, intercept: bool, n_train: int, n_test: int):
+        self.moments = moments
+        self.plan = plan
+        self.penalty = penalty
+        self.mix = float(mix)
+        self.intercept = bool(intercept)
+        self.n_train, self.n_test = int(n_train), int(n_test)
+        self.full = FoldSolver(train_gram, moments.domain, moments.y_shift, intercept, label="training rows")
+        self.full_stats = self.full.working(train_gram)
+        self.test_stats = None if test_gram is None else self.full.working(test_gram)
+        self._memo: tuple | None = None
+
+    # ---- what the statistics are -------------------------------------------------
+    @property
+    def max_degree(self) -> int:
+        return self.moments.max_degree
+
+    @property
+    def domain(self):
+        return self.moments.domain
+
+    @property
+    def weighted(self) -> bool:
+        return self.moments.weighted
+
+    @property
+    @abstractmethod
+    def counts(self) -> np.ndarray:
+        """Held-out rows per fold, shape (n_folds,)."""
+
+    @property
+    def n_folds(self) -> int:
+        return int(self.counts.size)
+
+    def _args(self, degree, lams):
+        """Validated (degree, lambdas) for this engine (the public methods' one check)."""
+        p = check(degree=degree, lambdas=lams)
+        if p.degree > self.max_degree:
+            raise ParameterError(message("Parameter 'degree'", f"an integer from 0 to {self.max_degree} "
+                                         "(the highest degree these statistics hold)", degree))
+        return p.degree, np.asarray(lams, dtype=float).ravel() if np.ndim(lams) else np.array([float(lams)])
+
+    # ---- the contract ---------------------------------------------------------------
+    @abstractmethod
+    def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
+        """Held-out and training MSE per fold, each of shape (n_folds, len(lams))."""
+
+    def cv_summary(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(mean CV MSE, its SE, mean training MSE), each of shape (len(lams),)."""
+        cv, tr = self.scores(degree, lams)
+        mean, se = fold_mean_se(cv)
+        return mean, se, tr.mean(axis=0) if np.isfinite(tr).all() else np.nanmean(tr, axis=0)
+
+    def cv_mean(self, degree: int, lam: float) -> float:
+        """Mean CV MSE of one configuration."""
+        return float(self.cv_summary(degree, [lam])[0][0])
+
+    def coefficients(self, degree: int, lams) -> np.ndarray:
+        """Legendre coefficients (raw y) of the fit on all training rows, shape (len(lams), degree + 1)."""
+        degree, lams = self._args(degree, lams)
+        return self.full.raw(self._full(degree, lams)[0])
+
+    def curve(self, degree: int, lam: float) -> Curve:
+        """The fit on all training rows as a ``Curve``."""
+        degree, lams = self._args(degree, [lam])
+        return self.full.curve(self._full(degree, lams)[0][0])
+
+    def effective_df(self, degree: int, lams) -> np.ndarray:
+        """df(lambda) of the all-rows fit (ESL eq. 3.50 for ridge, plus one for the intercept)."""
+        degree, lams = self._args(degree, lams)
+        return self._full(degree, lams)[1].copy()
+
+    def train_mse(self, degree: int, lams) -> np.ndarray:
+        """Weighted training MSE (SSE / sum w) of the all-rows fit, shape (len(lams),)."""
+        degree, lams = self._args(degree, lams)
+        theta = self._full(degree, lams)[0]
+        return FoldSolver.sse(self.full_stats, theta) / self.full_stats[0, 0]
+
+    def test_mse(self, degree: int, lam: float) -> float:
+        """Sealed-test MSE of the all-rows fit (only meaningful once the user asks to reveal it)."""
+        degree, lams = self._args(degree, [lam])
+        if self.test_stats is None:
+            raise ParameterError("Sealed test set: expected one (test_fraction > 0), got none.")
+        theta = self._full(degree, lams)[0]
+        return float(FoldSolver.sse(self.test_stats, theta)[0] / self.test_stats[0, 0])
+
+    def with_penalty(self, penalty: str, mix: float = 0.5) -> "ScoringEngine":
+        """A new engine on the same statistics with another penalty (this one is unchanged)."""
+        return engine_from_moments(self.moments, self.plan, penalty=penalty, mix=mix, intercept=self.intercept)
+
+    # ---- shared solving -----------------------------------------------------------------
+    def _full(self, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(working coefficients (nl, d + 1), effective df (nl,)) of the all-rows fit."""
+        coef, edf = self._solve([self.full], degree, lams)
+        return coef[0], edf[0]
+
+    def _solve(self, solvers: list, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Working coefficients (S, nl, d + 1) and effective df (S, nl) of several training sets
+        under this engine's penalty; the last call is remembered (a slider asks twice)."""
+        key = (id(solvers[0]), len(solvers), degree, lams.tobytes())
+        if self._memo is not None and self._memo[0] == key:
+            return self._memo[1]
+        out = solve_sets(solvers, degree, lams, self.penalty, self.mix)
+        self._memo = (key, out)
+        return out
+
+
+class FoldEngine(ScoringEngine):
+    """k-fold (also repeated, grouped, explicit or hashed) scoring from per-cell statistics.
+
+    Cells of ``moments`` are ``r * k + f`` for repeat r and fold f, plus one last
+    cell for the sealed test rows.
+    """
+
+    def __init__(self, moments: Moments, plan: FoldPlan, *, penalty: str = "ridge", mix: float = 0.0,
+                 intercept: bool = True):
+        k, R = plan.k, plan.repeats
+        gram = moments.gram
+        has_test = moments.n_cells > R * k
+        super().__init__(moments, plan, gram[:k].sum(axis=0), gram[R * k] if has_test else None,
+                         penalty=penalty, mix=mix, intercept=intercept,
+                         n_train=int(moments.counts[:k].sum()),
+                         n_test=int(moments.counts[R * k]) if has_test else 0)
+        self.solvers: list[FoldSolver] = []
+        held, train = [], []
+        for r in range(R):
+            blocks = gram[r * k:(r + 1) * k]
+            for f, S in enumerate(complement_sums(blocks)):
+                sv = FoldSolver(S, moments.domain, moments.y_shift, intercept,
+                                label=f"training rows of fold {f + 1}" + (f" (repeat {r + 1})" if R > 1 else ""))
+                self.solvers.append(sv)
+                held.append(sv.working(blocks[f]))
+                train.append(sv.working(S))
+        self._held = np.stack(held)          # held-out statistics per fold (working coordinates)
+        self._train = np.stack(train)        # training statistics per fold
+        self._counts = moments.counts[:R * k].copy()
+        self._all = self.solvers + [self.full]
+
+    @property
+    def counts(self) -> np.ndarray:
+        return self._counts
+
+    def fold_solver(self, i: int) -> FoldSolver:
+        """The solver of fold i (repeat-major)."""
+        return self.solvers[i]
+
+    def fold_coefficients(self, degree: int, lams) -> np.ndarray:
+        """Working-coordinate coefficients of every fold's fit, shape (n_folds, len(lams), degree + 1)."""
+        degree, lams = self._args(degree, lams)
+        return self._solve(self._all, degree, lams)[0][:-1].copy()
+
+    def fold_curves(self, degree: int, lam: float) -> list[Curve]:
+        """Each fold's training-rows fit as a ``Curve`` (the spread shows variance)."""
+        theta = self.fold_coefficients(degree, [lam])[:, 0]
+        return [sv.curve(th) for sv, th in zip(self.solvers, theta)]
+
+    def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
+        degree, lams = self._args(degree, lams)
+        theta = self._solve(self._all, degree, lams)[0][:-1]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            wh = self._held[:, 0, 0][:, None]
+            cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
+            tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None]
+        return cv, tr
+
+    def _full(self, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # the all-rows fit is solved together with the folds (one batched solve per degree)
+        coef, edf = self._solve(self._all, degree, lams)
+        return coef[-1], edf[-1]
+
+
+def engine_from_moments(moments: Moments, plan: FoldPlan, *, penalty: str = "ridge", mix: float = 0.5,
+                        intercept: bool = True) -> FoldEngine:
+    """The scoring engine for per-cell statistics and their fold plan (the one way to build one).
+
+    Parameters
+    ----------
+    moments : Moments
+        Cells ``r * k + f`` then the sealed cell (see ``core.folds.cell_labels``).
+    plan : FoldPlan
+    penalty : {"ridge", "lasso", "elastic"}
+    mix : float
+        The elastic net's L1 share (ignored for ridge and the lasso).
+    intercept : bool
+
+    Raises
+    ------
+    ParameterError
+        An unknown penalty, a bad mix, or statistics that do not match the plan.
+    """
+    share = combination(penalty=penalty, mix=mix)
+    need = plan.repeats * plan.k
+    if moments.n_cells not in (need, need + 1):
+        raise ParameterError(message("Statistics", f"{need + 1} cells for k = {plan.k}, repeats = {plan.repeats}",
+                                     moments.n_cells))
+    return FoldEngine(moments, plan, penalty=penalty, mix=share, intercept=intercept)
