@@ -74,7 +74,11 @@ class LooEngine(ScoringEngine):
         return M
 
     def scores(self, degree: int, lams) -> tuple[np.ndarray, np.ndarray]:
-        """(weighted squared LOO residual per row, shape (n, nl); training MSE, shape (1, nl))."""
+        """(weighted squared LOO residual per row, shape (n, nl); training MSE, shape (n, nl)).
+
+        Each row is its own fold; the training MSE given for every fold is that of the
+        all-rows fit (the left-out fits are never formed: that is the shortcut).
+        """
         degree, lams = self._args(degree, lams)
         sv = self.full
         theta = sv.raw(self._full(degree, lams)[0])                 # (nl, d+1), raw response
@@ -85,13 +89,9 @@ class LooEngine(ScoringEngine):
             h = h + 1.0 / sv.W
         h = self.w[:, None] * h
         loo = e / (1.0 - h)
-        tr = (np.sum(self.w[:, None] * e * e, axis=0) / np.sum(self.w))[None, :]
+        tr = np.broadcast_to(np.sum(self.w[:, None] * e * e, axis=0) / np.sum(self.w), loo.shape)
         # weight each row's loss by w_i / mean(w), so the mean over rows is sum w e^2 / sum w
         return (self.w / self.w.mean())[:, None] * loo * loo, tr
-
-    def cv_summary(self, degree: int, lams):
-        mean, se, _ = super().cv_summary(degree, lams)
-        return mean, se, self.scores(degree, lams)[1][0]
 
 
 def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max_degree: int,

@@ -36,6 +36,7 @@ from __future__ import annotations
 import warnings
 
 import numpy as np
+from scipy.linalg import solve_triangular
 
 from .errors import NumericalWarning
 
@@ -83,21 +84,49 @@ def coordinate_descent(G, c, lam, mix, *, tol=1e-13, max_sweeps=20000):
 MAX_CONDITION = 1e14
 
 
-def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=100):
-    """Exact solution of one problem by feature-sign search. Returns (b, converged)."""
+def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=100, design=None):
+    """Exact solution of one problem by feature-sign search. Returns (b, converged).
+
+    Minimises 0.5 b'G b - c'b + 0.5 lambda (1 - mix) ||b||^2 + (lambda mix / 2) ||b||_1.
+    ``design = (B, r)`` with G = B'B and c = B'r lets every sub-problem be solved by a QR
+    factorization of B's active columns (condition of B, not of B'B) and gradients be
+    formed from residuals; without it B is the Cholesky factor of G.
+    """
     d = c.size
     thr = lam * mix / 2.0
-    H = G + lam * (1.0 - mix) * np.eye(d)
+    lam2 = lam * (1.0 - mix)
+    if design is None:
+        B = np.linalg.cholesky(G + 1e-300 * np.eye(d)).T if d else np.zeros((0, 0))
+        r = solve_triangular(B, c, trans="T") if d else np.zeros(0)
+    else:
+        B, r = design
     scale = max(float(np.abs(c).max()), 1e-300)
     x = np.zeros(d)
     sign = np.zeros(d)
     active = np.zeros(d, dtype=bool)
 
+    def gradient(v):
+        return B.T @ (B @ v - r) + lam2 * v
+
     def objective(v):
-        return 0.5 * v @ H @ v - c @ v + thr * np.abs(v).sum()
+        e = B @ v - r
+        return 0.5 * e @ e + 0.5 * lam2 * v @ v + thr * np.abs(v).sum()
+
+    def solve(A):
+        C = B[:, A]
+        rhs = r
+        if lam2 > 0:
+            C = np.vstack([C, np.sqrt(lam2) * np.eye(A.size)])
+            rhs = np.concatenate([r, np.zeros(A.size)])
+        Q, R = np.linalg.qr(C)
+        if np.any(np.abs(np.diag(R)) <= 1e-300):
+            return np.linalg.lstsq(C.T @ C, C.T @ rhs - thr * sign[A], rcond=None)[0]
+        # R'R x = R'Q'rhs - thr s  =>  R x = Q'rhs - R^-T (thr s)
+        z = Q.T @ rhs - solve_triangular(R, thr * sign[A], trans="T")
+        return solve_triangular(R, z)
 
     for _ in range(max_iter):
-        grad = H @ x - c
+        grad = gradient(x)
         free = ~active
         if free.any():
             i = np.flatnonzero(free)[np.argmax(np.abs(grad[free]))]
@@ -108,10 +137,7 @@ def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=100):
             A = np.flatnonzero(active)
             if A.size == 0:
                 break
-            try:
-                xa = np.linalg.solve(H[np.ix_(A, A)], c[A] - thr * sign[A])
-            except np.linalg.LinAlgError:
-                xa = np.linalg.lstsq(H[np.ix_(A, A)], c[A] - thr * sign[A], rcond=None)[0]
+            xa = solve(A)
             cur = x[A]
             # the objective is smooth along the segment until a coefficient changes sign
             cands = [xa]
@@ -131,10 +157,10 @@ def active_set(G, c, lam, mix, *, tol=1e-12, max_iter=100):
             active &= nz
             sign = np.sign(x)
             A = np.flatnonzero(active)
-            g = H @ x - c
+            g = gradient(x)
             if A.size == 0 or np.all(np.abs(g[A] + thr * sign[A]) <= tol * scale):
                 break
-        grad = H @ x - c
+        grad = gradient(x)
         zero = ~active
         if np.all(np.abs(grad[zero]) <= thr + tol * scale) and \
                 np.all(np.abs(grad[active] + thr * sign[active]) <= 1e3 * tol * scale):
@@ -148,11 +174,11 @@ def _condition(sv, degree) -> float:
 
 
 def _standardized(sv, degree):
+    """(G, c, K, B, r): the standardized problem G = B'B, c = B'r with B = S V' and r = U'q
+    from the design's SVD (accurate pieces; G itself is only used where squaring is harmless)."""
     f = sv.factor(degree)
-    s2 = f.s ** 2
-    G = f.Vt.T @ (s2[:, None] * f.Vt)
-    c = f.Vt.T @ (f.s * f.Uq)
-    return G, c, f.K
+    B = f.s[:, None] * f.Vt
+    return B.T @ B, B.T @ f.Uq, f.K, B, f.Uq
 
 
 def penalized_coefficients(solvers, degree: int, lams, mix: float):
@@ -176,19 +202,19 @@ def penalized_coefficients(solvers, degree: int, lams, mix: float):
         return np.full((F, nl, degree + 1), np.nan), np.full((F, nl), np.nan)
     b = np.zeros((F * nl, degree))
     ok = np.ones(F * nl, dtype=bool)
-    for i, (Gi, ci, _) in enumerate(probs):
+    for i, (Gi, ci, _, Bi, ri) in enumerate(probs):
         for l_idx, lv in enumerate(lams):
-            b[i * nl + l_idx], ok[i * nl + l_idx] = active_set(Gi, ci, float(lv), mix)
+            b[i * nl + l_idx], ok[i * nl + l_idx] = active_set(Gi, ci, float(lv), mix, design=(Bi, ri))
     if not ok.all():
         warnings.warn(f"The penalized solver did not fully converge for {int((~ok).sum())} of {ok.size} "
                       f"(fold, lambda) problems at degree {degree}; scores there are approximate.",
                       NumericalWarning, stacklevel=3)
     b = b.reshape(F, nl, -1)
-    for i, (sv, (Gi, _, K)) in enumerate(zip(solvers, probs)):
+    for i, (sv, (_, _, K, Bi, _)) in enumerate(zip(solvers, probs)):
         out[i] = sv.assemble(b[i] @ K.T, degree)
         for l_idx, lv in enumerate(lams):
             act = np.flatnonzero(b[i, l_idx])
             if act.size:
-                ev = np.linalg.eigvalsh(Gi[np.ix_(act, act)])
+                ev = np.linalg.svd(Bi[:, act], compute_uv=False) ** 2
                 edf[i, l_idx] += float(np.sum(ev / (ev + lv * (1.0 - mix)))) if mix < 1 else act.size
     return out, edf
