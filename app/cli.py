@@ -14,7 +14,7 @@ import core
 from core.errors import CurvewrightError, NumericalWarning
 
 from .commands import COMMANDS
-from .commands.common import EXIT_BAD_INPUT, Parser, parse_degrees, parse_grid
+from .commands.common import EXIT_BAD_INPUT, Parser, describe_os_error, output_paths, parse_degrees, parse_grid
 
 __all__ = ["EXIT_BAD_INPUT", "build_parser", "main", "parse_degrees", "parse_grid"]
 
@@ -41,8 +41,11 @@ def main(argv=None, out=None) -> int:
         for w in {str(c.message) for c in caught if issubclass(c.category, NumericalWarning)}:
             print(f"warning: {w}", file=sys.stderr)
         return code
-    except CurvewrightError as exc:
+    except CurvewrightError as exc:   # before OSError: the refusal to overwrite is both
         print(f"error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as exc:            # a file the system would not let us read or write
+        print(f"error: {describe_os_error(exc, output_paths(args))}", file=sys.stderr)
         return EXIT_BAD_INPUT
 
 

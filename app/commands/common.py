@@ -1,11 +1,12 @@
 """Pieces several commands share: the parser's error shape, argument groups, grid parsing,
-reading a table with its notes, number formatting and the progress line."""
+reading a table with its notes, number formatting, the progress line and file-error wording."""
 
 from __future__ import annotations
 
 import argparse
 import json
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -16,12 +17,16 @@ from core.files import write_atomic
 from core.table import exclude_rows, read_table
 
 __all__ = [
-    "EXIT_BAD_INPUT", "Parser", "Progress", "add_data_args", "add_degree_lambda",
+    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "Parser", "Progress", "add_data_args", "add_degree_lambda",
     "add_fold_args", "add_folds", "add_force", "add_json", "add_missing", "add_out", "add_penalty_args",
-    "add_repeats", "add_seed", "add_sheet", "fmt", "load_rows", "parse_degrees", "parse_grid", "read_data", "write_json",
+    "add_repeats", "add_seed", "add_sheet", "describe_os_error", "fmt", "load_rows", "output_paths",
+    "parse_degrees", "parse_grid", "read_data", "write_json",
 ]
 
 EXIT_BAD_INPUT = 2
+
+# Options naming a file or folder a command writes; every other path a command opens is read.
+OUTPUT_OPTIONS = ("json", "out", "save", "save_stats", "images")
 
 
 class Parser(argparse.ArgumentParser):
@@ -177,6 +182,52 @@ def load_rows(path, x, y, missing, sheet):
 def write_json(path, doc, *, force: bool) -> Path:
     """``doc`` as indented JSON at ``path`` (atomic; refuses to overwrite unless ``force``)."""
     return write_atomic(path, json.dumps(doc, indent=2), force=force)
+
+
+def output_paths(args) -> list[str]:
+    """The paths a parsed command line writes to (the options in OUTPUT_OPTIONS that it has)."""
+    return [str(v) for v in (getattr(args, k, None) for k in OUTPUT_OPTIONS) if v]
+
+
+def describe_os_error(exc: OSError, outputs=()) -> str:
+    """The ``error:`` text for a path the operating system refused (permissions, a folder, ...).
+
+    A path that is one of ``outputs``, the hidden temporary written beside one, or a hidden
+    temporary inside an output folder is reported as that output; any other path was being read.
+    """
+    path = exc.filename2 if exc.filename2 is not None else exc.filename
+    if path is None:
+        return message("A file, folder or network address", "one that can be used",
+                       str(exc) or type(exc).__name__)
+    path = os.fsdecode(path)
+    output, into_folder = _output_for(path, outputs)
+    if isinstance(exc, IsADirectoryError):
+        got, fix = "a folder", ("Give a file name inside the folder" if output else "Give the path of a file")
+    elif isinstance(exc, PermissionError):
+        got, fix = "permission denied", ("Choose a folder you may write to, or change its permissions" if output
+                                         else "Change the file's permissions or copy it somewhere readable")
+    elif isinstance(exc, NotADirectoryError):
+        got, fix = "a path through something that is not a folder", "Check the path"
+    elif isinstance(exc, FileNotFoundError):
+        got, fix = "nothing at that path", "Check the path"
+    else:
+        got, fix = (exc.strerror or str(exc) or type(exc).__name__).lower(), "Check the path"
+    if output:
+        what = "a folder that can be written into" if into_folder else "a file that can be written"
+        return message(f"Output '{output}'", what, got, fix)
+    return message(f"File '{path}'", "a file that can be read", got, fix)
+
+
+def _output_for(path: str, outputs) -> tuple[str | None, bool]:
+    """(the output ``path`` belongs to or None, whether that output is a folder written into)."""
+    p = Path(os.path.abspath(path))
+    for out in outputs:
+        o = Path(os.path.abspath(out))
+        if p == o or (p.parent == o.parent and p.name.startswith(f".{o.name}.")):
+            return out, False
+        if p.parent == o and p.name.startswith("."):
+            return out, True
+    return None, False
 
 
 # ---- printing --------------------------------------------------------------------------------
