@@ -1,0 +1,211 @@
+"""``curvewright sweep``: cross-validate a degree x lambda grid, print the recommendations and the
+best error of each degree, and on request write the surface, a choice file and the statistics.
+
+The rows come from one of three readers: the whole file in memory (the default), the file in
+chunks (``--stream``, or automatically above STREAM_BYTES), or the partition-independent engine
+over a file, folder or glob (``--engine``, a folder or a glob pattern).
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from pathlib import Path
+
+import numpy as np
+
+import core
+from core.errors import ParameterError, message
+from core.table import unit_of
+
+from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
+                     add_seed, parse_degrees, parse_grid, read_data, write_json)
+
+STREAM_BYTES = 100 * 2**20
+
+
+def add_parser(subparsers):
+    p = subparsers.add_parser("sweep", help="cross-validate a degree x lambda grid; print the recommendation")
+    add_data_args(p)
+    p.add_argument("--degrees", default="0-15")
+    p.add_argument("--lambdas", default="1e-6:1e4:30", help="log grid START:STOP:COUNT")
+    p.add_argument("--with-zero", action="store_true", help="add lambda = 0 to the grid")
+    add_folds(p)
+    p.add_argument("--loo", action="store_true", help="leave-one-out through the hat matrix instead of k-fold")
+    add_penalty_args(p)
+    add_repeats(p, 1)
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--group", help="group column: rows sharing a value stay in one fold")
+    g.add_argument("--fold-column", help="explicit fold column")
+    add_seed(p)
+    p.add_argument("--test-fraction", type=float, default=0.0)
+    p.add_argument("--stream", action="store_true",
+                   help="read the file in chunks (automatic above 100 MB; CSV/TSV/Parquet)")
+    p.add_argument("--chunk-rows", type=int, default=500_000, help="rows per chunk when streaming")
+    p.add_argument("--engine", choices=["local", "dask"],
+                   help="partition-independent engine (hashed folds) over a file, folder or glob")
+    p.add_argument("--scheduler", help="Dask scheduler address (default: a LocalCluster on 127.0.0.1)")
+    p.add_argument("--save-stats", help="write the sufficient statistics (JSON) for `curvewright open --stats`")
+    add_json(p, help="write the surface as JSON here")
+    p.add_argument("--save", help="write the choice file (JSON) for the recommended or picked curve")
+    p.add_argument("--rule", choices=["1se", "min"], default="1se", help="recommendation saved by --save")
+    p.add_argument("--pick-degree", type=int, help="save this degree instead of the recommendation")
+    p.add_argument("--pick-lambda", type=float, help="save this lambda instead of the recommendation")
+    p.add_argument("--notes", default="", help="free text stored in the choice file")
+    add_force(p)
+    return p
+
+
+def run(args, out) -> int:
+    degrees, lams = _grid(args)
+    s, t = _sweep(args, degrees, lams)
+    _print_recommendations(s, t, out)
+    _print_by_degree(s, out)
+    if args.json:
+        write_json(args.json, s.to_dict(), force=args.force)
+    if args.save:
+        _save_choice(args, t, s, out)
+    if args.save_stats:
+        _save_stats(args, t, s, out)
+    return 0
+
+
+def _grid(args):
+    """The swept degrees and lambdas (with 0 first under --with-zero)."""
+    degrees = parse_degrees(args.degrees)
+    lams = parse_grid(args.lambdas, log=True, option="--lambdas")
+    if args.with_zero:
+        lams = np.concatenate([[0.0], lams])
+    return degrees, lams
+
+
+def _sweep(args, degrees, lams):
+    """(surface, data description) from the reader the data path and options ask for."""
+    path = Path(args.data)
+    streamable = path.suffix.lower() in (".csv", ".tsv", ".txt", ".parquet")
+    if args.engine or path.is_dir() or any(ch in args.data for ch in "*?["):
+        return _sweep_engine(args, degrees, lams)
+    if args.stream or (streamable and path.is_file() and path.stat().st_size > STREAM_BYTES):
+        return _sweep_streamed(args, degrees, lams)
+    t = read_data(args, {"group": args.group, "fold": args.fold_column})
+    s = core.sweep(t.x.values, t.y.values, degrees, lams, folds="loo" if args.loo else args.folds,
+                   repeats=args.repeats, groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
+                   test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                   penalty=args.penalty, mix=args.mix)
+    return s, t
+
+
+def _sweep_streamed(args, degrees, lams):
+    from core.stream import sweep_file
+
+    if args.group or args.fold_column:
+        raise ParameterError(message("Option --stream", "k-fold folds (no --group or --fold-column)",
+                                     "a group or fold column", "Read the file whole for grouped or explicit folds"))
+    s, sc = sweep_file(args.data, degrees, lams, x=args.x, y=args.y, weights=args.weights,
+                       uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
+                       test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                       missing=args.missing, chunk_rows=args.chunk_rows, progress=Progress())
+    if sc.rows_dropped:
+        print(f"note: dropped {len(sc.rows_dropped)} row(s) with missing values.", file=sys.stderr)
+    return s, sc
+
+
+def _sweep_engine(args, degrees, lams):
+    from core.distributed import expand_paths, sweep_files
+
+    if args.group or args.fold_column:
+        raise ParameterError(message("Option --engine", "hashed k-fold folds (no --group or --fold-column)",
+                                     "a group or fold column", "Read a single file whole for grouped folds"))
+    s, info = sweep_files(expand_paths(args.data), degrees, lams, x=args.x, y=args.y, weights=args.weights,
+                          uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
+                          test_fraction=args.test_fraction, intercept=not args.no_intercept, missing=args.missing,
+                          engine=args.engine or "local", scheduler=args.scheduler,
+                          chunk_rows=min(args.chunk_rows, 200_000), progress=Progress())
+    return s, _Info(info)
+
+
+class _Info:
+    """The streamed engines' data description, shaped like a Scan for the printing code."""
+
+    def __init__(self, info):
+        self.rows_used = info["rows_used"]
+        self.rows_dropped = info["rows_dropped"]
+        self.path = info["files"][0] if len(info["files"]) == 1 else _files_label(info["files"])
+        self.file_sha256, self.columns_sha256 = info["file_sha256"], info["columns_sha256"]
+        self.x_name, self.y_name, self.weight_name = info["x_name"], info["y_name"], info["weight_name"]
+        self.x_unit, self.y_unit = unit_of(self.x_name), unit_of(self.y_name)
+
+
+def _files_label(files):
+    return f"{len(files)} files ({Path(files[0]).name} ... {Path(files[-1]).name})"
+
+
+def _print_recommendations(s, t, out):
+    """Rows and folds used, then each rule's recommendation with its edge-of-grid notes."""
+    n_rows = t.rows_used if hasattr(t, "rows_used") else t.n
+    f = s.folds
+    print(f"{n_rows} rows ({s.n_train} for cross-validation, {f['n_test']} sealed); "
+          f"{f['scheme']} folds k={f['k']}, repeats={f['repeats']}, seed={f['seed']}", file=out)
+    for name, rec in s.recommended.items():
+        print(f"recommended ({name}): degree {rec.degree}, lambda {rec.lam:.4g} "
+              f"(grid {rec.grid_lambda:.3g}); CV RMSE {math.sqrt(rec.cv_mse):.6g} "
+              f"+/- {rec.cv_mse_se / (2 * math.sqrt(rec.cv_mse)):.2g}; effective df {rec.effective_df:.3g}",
+              file=out)
+        if rec.degree_at_edge:
+            print(f"  note: degree {rec.degree} is the top of the searched range; widen --degrees.", file=out)
+        if rec.lambda_at_edge:
+            print("  note: lambda is at the edge of the grid; widen --lambdas.", file=out)
+
+
+def _print_by_degree(s, out):
+    """One line per degree at its best lambda: CV RMSE, its standard error and the training RMSE."""
+    print("\nCV RMSE by degree (best lambda of each):", file=out)
+    print(f"{'degree':>6}  {'lambda':>10}  {'CV RMSE':>12}  {'SE(MSE)':>10}  {'train RMSE':>12}", file=out)
+    for i, d in enumerate(s.degrees):
+        j = int(np.nanargmin(s.cv_mse[i]))
+        print(f"{d:>6}  {s.lambdas[j]:>10.3g}  {math.sqrt(s.cv_mse[i, j]):>12.6g}  "
+              f"{s.cv_mse_se[i, j]:>10.3g}  {math.sqrt(s.train_mse[i, j]):>12.6g}", file=out)
+
+
+def _save_choice(args, t, s, out):
+    """The choice file for the picked (--pick-degree/--pick-lambda) or recommended (--rule) curve."""
+    from core.choice import make_choice, rule_of
+
+    if (args.pick_degree is None) != (args.pick_lambda is None):
+        raise ParameterError(message("Options --pick-degree and --pick-lambda", "both or neither", "only one"))
+    if args.pick_degree is not None:
+        d, lam = args.pick_degree, args.pick_lambda
+        if d not in set(int(v) for v in s.degrees):
+            raise ParameterError(message("Option --pick-degree", "one of the swept degrees", d))
+    else:
+        rec = s.recommended[args.rule]
+        d, lam = rec.degree, rec.lam
+    streamed = hasattr(t, "rows_used")
+    data = {"file": Path(t.path).name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
+            "rows_dropped": list(map(int, t.rows_dropped)),
+            "excluded_rows": list(getattr(t, "excluded_rows", ()))}
+    if streamed:
+        data.update({"x_column": t.x_name, "y_column": t.y_name, "x_unit": t.x_unit, "y_unit": t.y_unit})
+        kind = "uncertainty" if args.uncertainty else ("weights" if args.weights else None)
+        c = make_choice(None, None, s, d, lam, rule=rule_of(s, d, lam), data=data,
+                        weights_column=t.weight_name, notes=args.notes, version=core.__version__,
+                        weights_kind=kind)
+    else:
+        data.update({"x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit})
+        c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
+                        weights=t.weights, weights_column=t.weight_column, notes=args.notes,
+                        version=core.__version__, group_column=t.group_column, fold_column=t.fold_column,
+                        weights_kind=t.weight_kind)
+    c.save(args.save, force=args.force)
+    print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
+
+
+def _save_stats(args, t, s, out):
+    """The sufficient statistics that `curvewright open --stats` explores without the rows."""
+    from core.statsfile import save_stats
+
+    meta = {"x_column": getattr(t, "x_name", None) or t.x.name, "y_column": getattr(t, "y_name", None) or t.y.name,
+            "file": Path(t.path).name if not str(t.path).endswith("files)") else t.path,
+            "columns_sha256": t.columns_sha256}
+    save_stats(args.save_stats, s.engine, meta, force=args.force)
+    print(f"saved statistics -> {args.save_stats}", file=out)
