@@ -34,19 +34,26 @@ def main(argv=None, out=None) -> int:
     out = out or sys.stdout
     args = build_parser().parse_args(argv)
     run = COMMANDS[args.command].run
+    caught: list = []
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", NumericalWarning)
             code = run(args, out)
-        for w in {str(c.message) for c in caught if issubclass(c.category, NumericalWarning)}:
-            print(f"warning: {w}", file=sys.stderr)
+        _print_warnings(caught)
         return code
     except CurvewrightError as exc:   # before OSError: the refusal to overwrite is both
+        _print_warnings(caught)
         print(f"error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as exc:            # a file the system would not let us read or write
         print(f"error: {describe_os_error(exc, output_paths(args))}", file=sys.stderr)
         return EXIT_BAD_INPUT
+
+
+def _print_warnings(caught) -> None:
+    """Numerical warnings once each, in the order they arose."""
+    for w in dict.fromkeys(str(c.message) for c in caught if issubclass(c.category, NumericalWarning)):
+        print(f"warning: {w}", file=sys.stderr)
 
 
 if __name__ == "__main__":

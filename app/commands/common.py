@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from core import defaults
 from core.errors import ParameterError, message
 from core.files import write_atomic
 from core.table import exclude_rows, read_table
@@ -42,19 +43,22 @@ class Parser(argparse.ArgumentParser):
 
 def parse_degrees(spec: str) -> list[int]:
     """'0-15', '3', '1,2,5' or '2-4,8' -> sorted degrees."""
-    out = set()
+    top = defaults.MAX_DEGREE
+    pairs = []
     try:
         for part in str(spec).split(","):
             part = part.strip()
-            if "-" in part:
-                a, b = part.split("-", 1)
-                out.update(range(int(a), int(b) + 1))
-            else:
-                out.add(int(part))
+            a, _, b = part.partition("-") if "-" in part[1:] else (part, "", part)
+            pairs.append((int(a), int(b)))
     except ValueError:
         raise ParameterError(message("Option --degrees", "a range like 0-15 or a list like 1,2,5", repr(spec))) from None
-    if not out or min(out) < 0 or max(out) > 30:
-        raise ParameterError(message("Option --degrees", "degrees from 0 to 30", repr(spec)))
+    out = set()
+    for a, b in pairs:
+        if not (0 <= a <= top and 0 <= b <= top):     # bounds first: never build a huge range
+            raise ParameterError(message("Option --degrees", f"degrees from 0 to {top}", repr(spec)))
+        if b < a:
+            raise ParameterError(message("Option --degrees", "ranges written low-high, like 0-15", repr(spec)))
+        out.update(range(a, b + 1))
     return sorted(out)
 
 
@@ -66,8 +70,10 @@ def parse_grid(spec: str, *, log: bool, option: str) -> np.ndarray:
         raise ParameterError(message(f"Option {option}", "START:STOP:COUNT or one number", repr(spec))) from None
     if len(parts) == 1:
         return np.array(parts)
-    if len(parts) != 3 or parts[2] != int(parts[2]) or parts[2] < 1:
+    if len(parts) != 3 or not all(map(math.isfinite, parts)) or parts[2] != int(parts[2]) or parts[2] < 1:
         raise ParameterError(message(f"Option {option}", "START:STOP:COUNT with a whole COUNT", repr(spec)))
+    if parts[2] > defaults.MAX_GRID:
+        raise ParameterError(message(f"Option {option}", f"a COUNT of at most {defaults.MAX_GRID}", repr(spec)))
     a, b, c = parts
     if log:
         if a <= 0 or b <= 0:
@@ -114,7 +120,7 @@ def add_penalty_args(p):
 
 
 def add_folds(p):
-    p.add_argument("--folds", type=int, default=10)
+    p.add_argument("--folds", type=int, default=defaults.FOLDS)
 
 
 def add_repeats(p, default):
@@ -122,7 +128,7 @@ def add_repeats(p, default):
 
 
 def add_seed(p):
-    p.add_argument("--seed", type=int, default=0)
+    p.add_argument("--seed", type=int, default=defaults.SEED)
 
 
 def add_fold_args(p, repeats):
@@ -170,10 +176,10 @@ def read_data(args, extra=None):
 
 def load_rows(path, x, y, missing, sheet):
     """Validated x (and y) plus the original frame's kept rows, for apply and check."""
-    from core.table import _read_frame  # TODO(core): private name
+    from core.table import read_frame
 
     t = read_table(path, x=x, y=y, missing=missing, sheet=sheet, require_spread=False)
-    frame, _, _ = _read_frame(Path(path), sheet)  # TODO(core): private name
+    frame, _, _ = read_frame(Path(path), sheet)
     drop = set(r - 2 for r in t.rows_dropped)
     frame = frame.iloc[[i for i in range(len(frame)) if i not in drop]].reset_index(drop=True)
     return t, frame

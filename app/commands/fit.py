@@ -6,6 +6,7 @@ from __future__ import annotations
 import numpy as np
 
 import core
+from core import defaults
 from core.table import read_table
 
 from .common import add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data, write_json
@@ -71,9 +72,9 @@ def _print_interval(args, r, t, out):
         from core.uncertainty import bootstrap_interval
 
         yhat, lo, hi = bootstrap_interval(t.x.values, t.y.values, args.degree, args.lam, xs,
-                                          interval=args.interval, weights=t.weights,
+                                          interval=args.interval, weights=t.weights, B=defaults.BOOTSTRAP_B,
                                           intercept=not args.no_intercept, penalty=args.penalty, mix=args.mix)
-        how = "bootstrap, 400 resamples"
+        how = f"bootstrap, {defaults.BOOTSTRAP_B} resamples"
     print(f"95% {args.interval} interval ({how}):", file=out)
     for a, b_, c_, d_ in zip(xs, yhat, lo, hi):
         print(f"  x {a:>12.6g}  fit {b_:>14.8g}  [{c_:.8g}, {d_:.8g}]", file=out)

@@ -15,21 +15,21 @@ from pathlib import Path
 import numpy as np
 
 import core
+from core import defaults
 from core.errors import ParameterError, message
 from core.table import unit_of
 
 from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
                      add_seed, parse_degrees, parse_grid, read_data, write_json)
 
-STREAM_BYTES = 100 * 2**20
-
 
 def add_parser(subparsers):
     p = subparsers.add_parser("sweep", help="cross-validate a degree x lambda grid; print the recommendation")
     add_data_args(p)
-    p.add_argument("--degrees", default="0-15")
-    p.add_argument("--lambdas", default="1e-6:1e4:30", help="log grid START:STOP:COUNT")
-    p.add_argument("--with-zero", action="store_true", help="add lambda = 0 to the grid")
+    lo, hi = defaults.LAMBDA_RANGE
+    p.add_argument("--degrees", default=f"{min(defaults.DEGREES)}-{max(defaults.DEGREES)}")
+    p.add_argument("--lambdas", help=f"log grid START:STOP:COUNT (default: 0 and {lo:g}:{hi:g}:{defaults.LAMBDA_COUNT})")
+    p.add_argument("--with-zero", action="store_true", help="add lambda = 0 to a grid given by --lambdas")
     add_folds(p)
     p.add_argument("--loo", action="store_true", help="leave-one-out through the hat matrix instead of k-fold")
     add_penalty_args(p)
@@ -38,10 +38,11 @@ def add_parser(subparsers):
     g.add_argument("--group", help="group column: rows sharing a value stay in one fold")
     g.add_argument("--fold-column", help="explicit fold column")
     add_seed(p)
-    p.add_argument("--test-fraction", type=float, default=0.0)
+    p.add_argument("--test-fraction", type=float, default=defaults.TEST_FRACTION,
+                   help=f"share of rows sealed away before cross-validation (default {defaults.TEST_FRACTION:g})")
     p.add_argument("--stream", action="store_true",
-                   help="read the file in chunks (automatic above 100 MB; CSV/TSV/Parquet)")
-    p.add_argument("--chunk-rows", type=int, default=500_000, help="rows per chunk when streaming")
+                   help=f"read the file in chunks (automatic above {defaults.STREAM_BYTES // 2**20} MB; CSV/TSV/Parquet)")
+    p.add_argument("--chunk-rows", type=int, default=defaults.CHUNK_ROWS, help="rows per chunk when streaming")
     p.add_argument("--engine", choices=["local", "dask"],
                    help="partition-independent engine (hashed folds) over a file, folder or glob")
     p.add_argument("--scheduler", help="Dask scheduler address (default: a LocalCluster on 127.0.0.1)")
@@ -57,6 +58,7 @@ def add_parser(subparsers):
 
 
 def run(args, out) -> int:
+    _check_options(args)
     degrees, lams = _grid(args)
     s, t = _sweep(args, degrees, lams)
     _print_recommendations(s, t, out)
@@ -70,9 +72,20 @@ def run(args, out) -> int:
     return 0
 
 
+def _check_options(args):
+    """Combinations refused before any work is done or any file is written."""
+    if (args.pick_degree is None) != (args.pick_lambda is None):
+        raise ParameterError(message("Options --pick-degree and --pick-lambda", "both or neither", "only one"))
+    if args.loo and args.save_stats:
+        raise ParameterError(message("Option --save-stats", "k-fold cross-validation (the file holds per-fold sums)",
+                                     "--loo", "Leave-one-out needs the rows themselves; drop --loo to save statistics"))
+
+
 def _grid(args):
     """The swept degrees and lambdas (with 0 first under --with-zero)."""
     degrees = parse_degrees(args.degrees)
+    if args.lambdas is None:
+        return degrees, defaults.lambda_grid()
     lams = parse_grid(args.lambdas, log=True, option="--lambdas")
     if args.with_zero:
         lams = np.concatenate([[0.0], lams])
@@ -85,7 +98,7 @@ def _sweep(args, degrees, lams):
     streamable = path.suffix.lower() in (".csv", ".tsv", ".txt", ".parquet")
     if args.engine or path.is_dir() or any(ch in args.data for ch in "*?["):
         return _sweep_engine(args, degrees, lams)
-    if args.stream or (streamable and path.is_file() and path.stat().st_size > STREAM_BYTES):
+    if args.stream or (streamable and path.is_file() and path.stat().st_size > defaults.STREAM_BYTES):
         return _sweep_streamed(args, degrees, lams)
     t = read_data(args, {"group": args.group, "fold": args.fold_column})
     s = core.sweep(t.x.values, t.y.values, degrees, lams, folds="loo" if args.loo else args.folds,
@@ -95,15 +108,25 @@ def _sweep(args, degrees, lams):
     return s, t
 
 
+def _refuse_row_options(args, how: str):
+    """Options that need every row in memory are refused by name for the chunked readers."""
+    used = [name for name, on in (("--group", args.group), ("--fold-column", args.fold_column),
+                                  ("--loo", args.loo), ("--exclude", args.exclude)) if on]
+    if used:
+        raise ParameterError(message(f"Option {how}", "k-fold folds over every row (the file is read in chunks)",
+                                     " and ".join(used),
+                                     "Leave-one-out, grouped or explicit folds and excluded rows need the "
+                                     "file read whole: drop those options or make the file smaller"))
+
+
 def _sweep_streamed(args, degrees, lams):
     from core.stream import sweep_file
 
-    if args.group or args.fold_column:
-        raise ParameterError(message("Option --stream", "k-fold folds (no --group or --fold-column)",
-                                     "a group or fold column", "Read the file whole for grouped or explicit folds"))
+    _refuse_row_options(args, "--stream")
     s, sc = sweep_file(args.data, degrees, lams, x=args.x, y=args.y, weights=args.weights,
                        uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
                        test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                       penalty=args.penalty, mix=args.mix,
                        missing=args.missing, chunk_rows=args.chunk_rows, progress=Progress())
     if sc.rows_dropped:
         print(f"note: dropped {len(sc.rows_dropped)} row(s) with missing values.", file=sys.stderr)
@@ -113,12 +136,11 @@ def _sweep_streamed(args, degrees, lams):
 def _sweep_engine(args, degrees, lams):
     from core.distributed import expand_paths, sweep_files
 
-    if args.group or args.fold_column:
-        raise ParameterError(message("Option --engine", "hashed k-fold folds (no --group or --fold-column)",
-                                     "a group or fold column", "Read a single file whole for grouped folds"))
+    _refuse_row_options(args, "--engine")
     s, info = sweep_files(expand_paths(args.data), degrees, lams, x=args.x, y=args.y, weights=args.weights,
                           uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
-                          test_fraction=args.test_fraction, intercept=not args.no_intercept, missing=args.missing,
+                          test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                          penalty=args.penalty, mix=args.mix, missing=args.missing,
                           engine=args.engine or "local", scheduler=args.scheduler,
                           chunk_rows=min(args.chunk_rows, 200_000), progress=Progress())
     return s, _Info(info)
@@ -171,8 +193,6 @@ def _save_choice(args, t, s, out):
     """The choice file for the picked (--pick-degree/--pick-lambda) or recommended (--rule) curve."""
     from core.choice import make_choice, rule_of
 
-    if (args.pick_degree is None) != (args.pick_lambda is None):
-        raise ParameterError(message("Options --pick-degree and --pick-lambda", "both or neither", "only one"))
     if args.pick_degree is not None:
         d, lam = args.pick_degree, args.pick_lambda
         if d not in set(int(v) for v in s.degrees):

@@ -47,10 +47,21 @@ def test_sweep_json_layout(tmp_path, capsys):
     assert {"degree", "lambda", "cv_mse"} <= set(doc["recommended"]["min"])
 
 
-def test_learn_runs(capsys):
+def test_learn_prints_core_learning_curve(capsys, tmp_path):
+    """learn prints, size by size, the numbers of core.learning_curve on the same rows (and its JSON holds them)."""
+    import core
+    from core.table import read_table
+
+    out = tmp_path / "lc.json"
     code, text, _ = run(["learn", FURNACE, "--x", 1, "--y", 2, "--degree", 3, "--lambda", 0.01,
-                         "--sizes", "0.2:1:5", "--repeats", 2], capsys)
-    assert code == 0 and text.count("\n") >= 7
+                         "--sizes", "0.2:1:5", "--repeats", 2, "--json", out], capsys)
+    assert code == 0
+    t = read_table(FURNACE, x=1, y=2)
+    ref = core.learning_curve(t.x.values, t.y.values, 3, 0.01, sizes=np.linspace(0.2, 1, 5), repeats=2)
+    doc = json.loads(out.read_text())
+    np.testing.assert_allclose(doc["cv_mse"], ref.cv_mse, rtol=1e-12)
+    rows = [ln.split() for ln in text.splitlines() if ln[:6].strip() in {"0.2", "0.4", "0.6", "0.8", "1"}]
+    assert [float(r[3]) for r in rows] == pytest.approx(ref.cv_mse.tolist(), rel=1e-9)
 
 
 def test_existing_output_is_not_overwritten_without_force(tmp_path, capsys):
@@ -87,3 +98,54 @@ def test_grid_parsers():
     np.testing.assert_allclose(parse_grid("1e-2:1e2:5", log=True, option="--lambdas"), [1e-2, 1e-1, 1, 10, 100])
     with pytest.raises(ParameterError):
         parse_degrees("0-31")
+
+
+def test_loo_sweep_saves_a_choice_and_refuses_statistics_up_front(tmp_path, capsys):
+    """sweep --loo --save writes a schema-valid choice whose CV error is the LOO error of core.sweep;
+    with --save-stats the refusal comes before any file is written."""
+    import jsonschema
+
+    import core
+    from core.choice import SCHEMA
+    from core.table import read_table
+
+    choice = tmp_path / "c.json"
+    code, _, _ = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--loo", "--degrees", "0-5", "--lambdas", "1e-3:1:4",
+                      "--with-zero", "--save", choice, "--pick-degree", 3, "--pick-lambda", 0.01], capsys)
+    assert code == 0
+    doc = json.loads(choice.read_text())
+    jsonschema.validate(doc, SCHEMA)
+    t = read_table(FURNACE, x=1, y=2)
+    ref = core.sweep(t.x.values, t.y.values, [3], [0.01], folds="loo", test_fraction=0.2)
+    assert doc["validation"]["scheme"] == "loo" and doc["validation"]["k"] == ref.n_train
+    assert doc["validation"]["cv_mse"] == pytest.approx(ref.cv_mse[0, 0], rel=1e-12)
+    code, _, err = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--loo", "--save", tmp_path / "c2.json",
+                        "--save-stats", tmp_path / "s.json"], capsys)
+    assert code == 2 and "Option --save-stats: expected k-fold cross-validation" in err
+    assert not (tmp_path / "c2.json").exists() and not (tmp_path / "s.json").exists()
+
+
+def test_streamed_lasso_equals_in_memory_lasso(tmp_path, capsys):
+    """--stream --penalty lasso scores the lasso (not ridge): its surface equals core.sweep's lasso surface."""
+    import core
+    from core.table import read_table
+
+    out = tmp_path / "s.json"
+    code, _, _ = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--stream", "--chunk-rows", 7, "--penalty", "lasso",
+                      "--degrees", "0-4", "--lambdas", "1e-2:1e2:5", "--folds", 4, "--json", out], capsys)
+    assert code == 0
+    doc = json.loads(out.read_text())
+    t = read_table(FURNACE, x=1, y=2)
+    ref = core.sweep(t.x.values, t.y.values, range(0, 5), np.logspace(-2, 2, 5), folds=4, test_fraction=0.2,
+                     penalty="lasso")
+    ridge = core.sweep(t.x.values, t.y.values, range(0, 5), np.logspace(-2, 2, 5), folds=4, test_fraction=0.2)
+    assert doc["penalty"] == "lasso"
+    np.testing.assert_allclose(doc["cv_mse"], ref.cv_mse, rtol=1e-10)
+    assert not np.allclose(doc["cv_mse"], ridge.cv_mse, rtol=1e-3)
+
+
+@pytest.mark.parametrize("extra", [["--loo"], ["--exclude", "7"], ["--group", "x"]])
+def test_streamed_sweep_refuses_options_that_need_the_rows(extra, capsys):
+    """--stream with leave-one-out, excluded rows or grouped folds is refused by name, never ignored."""
+    code, _, err = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--stream", *extra], capsys)
+    assert code == 2 and "Option --stream: expected k-fold folds over every row" in err and extra[0] in err

@@ -129,7 +129,7 @@ def test_cli_save_apply_check_round_trip(tmp_path, capsys):
     choice = tmp_path / "beam.json"
     assert main(["sweep", str(data), "--x", "load", "--y", "deflection", "--degrees", "0-4", "--with-zero",
                  "--folds", "5", "--group", "run", "--save", str(choice), "--pick-degree", "2",
-                 "--pick-lambda", "0", "--folds", "3"]) == 0
+                 "--pick-lambda", "0", "--folds", "3", "--test-fraction", "0"]) == 0
     doc = json.loads(choice.read_text())
     assert doc["validation"]["scheme"] == "group" and doc["model"]["interval"] is not None
     new = tmp_path / "new.csv"

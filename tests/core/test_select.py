@@ -37,16 +37,53 @@ def invented(n=300, seed=0):
     return x, 2 + np.sin(x / 2) + 0.2 * rng.normal(size=n)
 
 
-def test_refined_lambda_is_no_worse_than_grid():
-    """The bounded log-lambda search between grid neighbours never raises CV MSE."""
+def test_refined_lambda_is_the_minimum_between_grid_neighbours():
+    """The lowest-error pick's lambda, refined between its grid neighbours, is where CV MSE is lowest:
+    scikit-learn's cross_val_score on the same folds (PredefinedSplit) over a fine log grid between
+    those neighbours finds nothing lower (to its rounding), and agrees with our value at our lambda."""
+    from sklearn.linear_model import Ridge
+    from sklearn.model_selection import PredefinedSplit, cross_val_score
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import PolynomialFeatures, StandardScaler
+
     x, y = invented()
-    s = core.sweep(x, y, range(1, 10), np.logspace(-6, 4, 11), folds=5)
+    grid = np.logspace(-6, 4, 11)
+    s = core.sweep(x, y, range(8, 13), grid, folds=5)        # high degrees: an interior lambda is best
     rec = s.recommended["min"]
-    assert rec.cv_mse <= s.cv_mse.min() + 1e-15
+    assert not rec.lambda_at_edge
+    split = PredefinedSplit(s.engine.plan.labels[0])
+
+    def sk_cv(lam):
+        model = make_pipeline(PolynomialFeatures(rec.degree, include_bias=False), StandardScaler(), Ridge(alpha=lam))
+        return -cross_val_score(model, x[:, None], y, cv=split, scoring="neg_mean_squared_error").mean()
+
+    i = int(np.flatnonzero(grid == rec.grid_lambda)[0])
+    fine = np.logspace(np.log10(grid[max(i - 1, 0)]), np.log10(grid[min(i + 1, grid.size - 1)]), 41)
+    best_fine = min(sk_cv(v) for v in fine)
+    assert sk_cv(rec.lam) == pytest.approx(rec.cv_mse, rel=1e-8)
+    assert rec.cv_mse <= best_fine * (1 + 1e-6)
+    assert rec.cv_mse < s.cv_mse[rec.degree - 8, i]          # refinement found a lower point than the grid
+
+
+def test_simplest_pick_sits_on_the_one_standard_error_bar():
+    """The 1se pick's refined lambda is the root of CV(lambda) = min + SE (it is moved as far towards
+    simpler as the bar allows): scikit-learn's CV there equals the bar, to the root finder's tolerance."""
+    from sklearn.linear_model import Ridge
+    from sklearn.model_selection import PredefinedSplit, cross_val_score
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import PolynomialFeatures, StandardScaler
+
+    x, y = invented()
+    s = core.sweep(x, y, range(1, 8), np.logspace(-6, 4, 11), folds=5)
     one = s.recommended["1se"]
-    g = grid_choices(s.cv_mse, s.cv_mse_se)
-    assert one.cv_mse <= g["threshold"] * (1 + 1e-12)
-    assert one.lam >= one.grid_lambda
+    bar = grid_choices(s.cv_mse, s.cv_mse_se)["threshold"]
+    model = make_pipeline(PolynomialFeatures(one.degree, include_bias=False), StandardScaler(), Ridge(alpha=one.lam))
+    sk = -cross_val_score(model, x[:, None], y, cv=PredefinedSplit(s.engine.plan.labels[0]),
+                          scoring="neg_mean_squared_error").mean()
+    if one.lam > one.grid_lambda:                      # refined off the grid: on the bar
+        assert sk == pytest.approx(bar, rel=1e-5) and sk <= bar * (1 + 1e-8)
+    else:                                              # the next grid point is still under the bar
+        assert sk <= bar
 
 
 def test_sealed_test_rows_never_enter_cross_validation():

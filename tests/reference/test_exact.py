@@ -14,7 +14,8 @@ from tests.reference.exact import exact_fold_mse
 
 @pytest.mark.parametrize("intercept", [True, False])
 def test_offset_weighted_surface_equals_exact_reference(intercept):
-    """Invented data, x in [1000, 1100], unequal weights, degrees to 10: fold MSEs to 1e-10."""
+    """Invented data, x in [1000, 1100], unequal weights, degrees to 10: every fold's held-out and
+    training MSE to 1e-10."""
     rng = np.random.default_rng(5)
     n = 50
     x = rng.uniform(1000, 1100, n)
@@ -24,9 +25,12 @@ def test_offset_weighted_surface_equals_exact_reference(intercept):
     s = core.sweep(x, y, range(0, 11), lams, folds=5, seed=2, weights=w, intercept=intercept)
     lab = s.engine.plan.labels[0]
     for d in (0, 2, 5, 10):
+        _, fold_train = s.engine.scores(d, lams)
         for j, lam in enumerate(lams):
             cv, tr = exact_fold_mse(x, y, w, lab, d, lam, intercept=intercept)
             np.testing.assert_allclose(s.fold_mse[d, j], cv, rtol=1e-10)
+            np.testing.assert_allclose(fold_train[:, j], tr, rtol=1e-10)
+            assert s.train_mse[d, j] == pytest.approx(tr.mean(), rel=1e-10)
 
 
 def test_repeated_and_grouped_folds_equal_exact_reference():
