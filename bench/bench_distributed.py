@@ -61,7 +61,7 @@ def chunks():
 t0 = time.perf_counter()
 s = sweep_chunks(chunks(), range(0, 16), np.logspace(-6, 4, 30), domain=Domain.from_range(0, 10), folds=5)
 dt = time.perf_counter() - t0
-print(dt, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, s.recommended["1se"].degree)
+print(dt, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, s.recommended["simplest"].degree)
 """
 
 

@@ -5,11 +5,10 @@ from .basis import Domain
 from .choice import Choice
 from .crossval import build_engine, sweep
 from .curve import Curve
-from .curves import LearningCurve, describe_learning_curve, learning_curve
-from .descent import GradientDescentResult, gradient_descent
+from .curves import SizeCurve, size_curve
 from .engine import FoldEngine, ScoringEngine, engine_from_moments
 from .errors import CurvewrightError, DataError, NumericalWarning, ParameterError
-from .fit import FitResult, fit, fit_from_engine
+from .fit import FitOutcome, fit, fit_from_engine
 from .folds import FoldPlan, make_plan
 from .loo import LooEngine
 from .moments import Accumulator, Moments, accumulate
@@ -19,9 +18,8 @@ from .solve import FoldSolver
 __version__ = "0.1.0"
 
 __all__ = [
-    "Accumulator", "Choice", "Curve", "CurvewrightError", "DataError", "Domain", "FitResult", "FoldEngine",
-    "FoldPlan", "FoldSolver", "GradientDescentResult", "LearningCurve", "LooEngine", "Moments",
-    "NumericalWarning", "ParameterError", "Recommendation", "ScoringEngine", "SealedTest", "Surface",
-    "accumulate", "build_engine", "describe_learning_curve", "engine_from_moments", "fit", "fit_from_engine",
-    "gradient_descent", "learning_curve", "make_plan", "surface_from_engine", "sweep", "__version__",
+    "Accumulator", "Choice", "Curve", "CurvewrightError", "DataError", "Domain", "FitOutcome", "FoldEngine",
+    "FoldPlan", "FoldSolver", "LooEngine", "Moments", "NumericalWarning", "ParameterError", "Recommendation",
+    "ScoringEngine", "SealedTest", "SizeCurve", "Surface", "accumulate", "build_engine", "engine_from_moments",
+    "fit", "fit_from_engine", "make_plan", "size_curve", "surface_from_engine", "sweep", "__version__",
 ]

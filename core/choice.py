@@ -1,11 +1,13 @@
 """The choice file: one JSON document with everything to reproduce and audit a chosen curve.
 
-Loading validates against the schema shipped beside this module
-(``choice_schema.json``) with the jsonschema library, then checks that the
-numbers agree with each other (degree vs coefficient count); loading never
-runs code and never unpickles. Predictions use the stable Legendre form
-(``core.basis.legval``) from the stored floats, so a loaded choice predicts
-bit for bit what the in-memory fit predicted.
+Loading refuses NaN/Infinity literals, validates against the schema
+(``core.choice_schema``, shipped as ``choice_schema.json``) with the jsonschema
+library, then checks that the numbers agree with each other (degree vs
+coefficient count); loading never runs code and never unpickles. Files written
+by curvewright 0.1 (format version 1) are read with today's names
+(``core.choice_legacy``) and say so in ``notices``. Predictions use the stable
+Legendre form (``core.curve.Curve``) from the stored floats, so a loaded choice
+predicts bit for bit what the in-memory fit predicted.
 """
 
 from __future__ import annotations
@@ -19,16 +21,16 @@ from pathlib import Path
 import numpy as np
 
 from .basis import Domain
+from .choice_legacy import upgrade_v1
+from .choice_schema import FORMAT, VERSION, schema
 from .curve import Curve
 from .errors import DataError, message
 from .files import write_atomic
-from .fit import interval_bounds
+from .fit import band_limits
 
-__all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION", "build_choice", "make_choice", "rule_of"]
+__all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION", "build_choice", "make_choice", "rule_of", "score"]
 
-FORMAT = "curvewright-choice"
-VERSION = 1
-SCHEMA = json.loads((Path(__file__).with_name("choice_schema.json")).read_text(encoding="utf-8"))
+SCHEMA = schema()
 
 
 def _field(err) -> str:
@@ -36,11 +38,19 @@ def _field(err) -> str:
     return path or "(top level)"
 
 
+def _refuse_constant(name: str):
+    raise DataError(message("Choice file", "finite numbers (JSON has no NaN or Infinity)", name))
+
+
 @dataclass(frozen=True)
 class Choice:
-    """A validated choice document (``doc`` is the parsed JSON)."""
+    """A validated choice document (``doc`` is the parsed JSON, always in today's version).
+
+    ``notices`` says what was done to read it (for example, an older version mapped).
+    """
 
     doc: dict
+    notices: tuple = ()
 
     @classmethod
     def from_dict(cls, doc) -> "Choice":
@@ -48,8 +58,14 @@ class Choice:
 
         if not isinstance(doc, dict):
             raise DataError(message("Choice file", "a JSON object", type(doc).__name__))
-        if doc.get("format") == FORMAT and doc.get("version") != VERSION:
-            raise DataError(message("Choice file field 'version'", f"{VERSION}", repr(doc.get("version")),
+        notices = ()
+        if doc.get("format") == FORMAT and doc.get("version") == 1:
+            doc = upgrade_v1(doc)
+            notices = ("This choice file was written by curvewright 0.1 (format version 1); it was read with "
+                       "today's names (rules 'lowest'/'simplest', coefficient rows power/value/standard_error). "
+                       "Every number is as written.",)
+        elif doc.get("format") == FORMAT and doc.get("version") != VERSION:
+            raise DataError(message("Choice file field 'version'", f"1 or {VERSION}", repr(doc.get("version")),
                                     "This file was written by another version of curvewright"))
         errors = sorted(jsonschema.Draft202012Validator(SCHEMA).iter_errors(doc), key=lambda e: list(e.absolute_path))
         if errors:
@@ -65,12 +81,12 @@ class Choice:
         if not math.isclose(v["cv_rmse"], math.sqrt(v["cv_mse"]), rel_tol=1e-9):
             raise DataError(message("Choice file field 'validation/cv_rmse'", "the square root of cv_mse",
                                     v["cv_rmse"], "The file has been edited; re-export it"))
-        return cls(doc)
+        return cls(doc, notices)
 
     @classmethod
     def from_json(cls, text: str) -> "Choice":
         try:
-            doc = json.loads(text)
+            doc = json.loads(text, parse_constant=_refuse_constant)
         except json.JSONDecodeError as exc:
             raise DataError(message("Choice file", "valid JSON", f"{exc.msg} at line {exc.lineno}")) from None
         return cls.from_dict(doc)
@@ -106,24 +122,26 @@ class Choice:
         return float(lo), float(hi)
 
     @property
-    def has_interval(self) -> bool:
-        return self.doc["model"]["interval"] is not None
+    def has_band(self) -> bool:
+        """Whether the file carries what a band needs (the coefficient covariance)."""
+        return self.doc["model"]["uncertainty"] is not None
 
-    def predict(self, x, interval: str | None = None, level: float = 0.95):
+    def predict(self, x, band: str | None = None, coverage: float = 0.95):
         """Predictions at raw x from the stable form (bit-identical to the fit's).
 
-        ``interval`` ("confidence" or "prediction") is available for lambda = 0
-        choices, which store the coefficient covariance; returns (yhat, lower, upper).
+        ``band`` ("curve": where the curve lies; "reading": where one new reading lies)
+        is available for choices that store the coefficient covariance; returns
+        (prediction, low, high).
         """
         yhat = self.curve(x)
-        if interval is None:
+        if band is None:
             return yhat
         t = self.domain.map(np.asarray(x, dtype=float))
-        iv = self.doc["model"]["interval"]
-        cov = None if iv is None else np.array(iv["legendre_covariance"], dtype=float)
-        sd = None if iv is None else iv["residual_sd"]
-        df = None if iv is None else iv["df_residual"]
-        return (yhat, *interval_bounds(yhat, t, cov, sd, df, interval, level))
+        u = self.doc["model"]["uncertainty"]
+        cov = None if u is None else np.array(u["legendre_covariance"], dtype=float)
+        sd = None if u is None else u["residual_sd"]
+        df = None if u is None else u["residual_df"]
+        return (yhat, *band_limits(yhat, t, cov, sd, df, band, coverage))
 
     def to_sklearn(self):
         """A fitted scikit-learn Pipeline predicting the same curve.
@@ -141,9 +159,8 @@ class Choice:
         m = self.doc["model"]
         d = m["degree"]
         a = np.zeros(d + 1)
-        first = 0 if m["intercept"] else 1
-        for k, row in zip(range(first, d + 1), m["power_coefficients"]):
-            a[k] = row["estimate"]
+        for row in m["power_coefficients"]:
+            a[row["power"]] = row["value"]
         X0 = np.zeros((1, 1))
         poly = PolynomialFeatures(max(d, 1), include_bias=False).fit(X0)
         n_feat = max(d, 1)
@@ -170,14 +187,14 @@ class Choice:
 
 
 def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
-                weights_column=None, notes: str = "", version: str = "0.1.0",
-                group_column=None, fold_column=None, weights_kind=None) -> Choice:
+                weight_column=None, weight_kind=None, notes: str = "", version: str = "0.1.0",
+                groups_from=None, folds_given_by=None) -> Choice:
     """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
 
     Refits on the sweep's training rows (the sealed rows stay out; with ``x=None``
     the fit comes from the sweep's statistics, for streamed files), takes the CV
     numbers from the sweep's statistics, and records the recommendation and the
-    sealed-test audit record.
+    sealed-test audit record. ``weight_kind`` is "relative" or "uncertainty".
     """
     from .fit import fit as _fit
     from .fit import fit_from_engine
@@ -195,57 +212,61 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
         rows, xr = int(x.size), [float(x.min()), float(x.max())]
     m, se, _ = eng.cv_summary(degree, [lam])
     info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
-            "sealed_test": surface.sealed.to_dict(), "group_column": group_column, "fold_column": fold_column}
-    data = {**data, "rows_used": rows, "x_range": xr}
+            "sealed_test": surface.sealed.to_dict(), "groups_from": groups_from, "folds_given_by": folds_given_by}
+    data = {"excluded_rows": [], **data, "rows_used": rows, "x_range": xr}
     return build_choice(fit=f, surface_info=info, rule=rule,
                         cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
-                        data=data, notes=notes, weights_column=weights_column, version=version,
-                        weights_kind=weights_kind)
+                        data=data, notes=notes, weight_column=weight_column, weight_kind=weight_kind,
+                        version=version)
 
 
 def rule_of(surface, degree: int, lam: float) -> str:
-    """'min' or '1se' when (degree, lambda) is that recommendation, else 'manual'."""
+    """'lowest' or 'simplest' when (degree, lambda) is that recommendation, else 'manual'."""
     for name, rec in surface.recommended.items():
         if rec.degree == degree and math.isclose(rec.lam, lam, rel_tol=1e-9, abs_tol=0.0):
             return name
     return "manual"
 
 
+def _finite_or_none(v):
+    return float(v) if v is not None and np.isfinite(v) else None
+
+
 def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, notes: str = "",
-                 weights_column=None, version: str = "0.1.0", weights_kind=None) -> Choice:
-    """Assemble and validate a choice document from a FitResult and validation numbers.
+                 weight_column=None, weight_kind=None, version: str = "0.1.0") -> Choice:
+    """Assemble and validate a choice document from a FitOutcome and validation numbers.
 
     ``cv`` holds cv_mse, cv_mse_se, train_mse; ``surface_info`` the fold scheme
     (scheme, k, repeats, seed), the recommendations and the sealed-test record.
     """
+    kind = weight_kind if weight_column else None
     doc = {
         "format": FORMAT, "version": VERSION,
         "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
         "software": {"name": "curvewright", "version": version},
         "data": data,
         "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": fit.penalty, "mix": fit.mix,
-                  "reduced_chi_square": (float(fit.reduced_chi_square) if weights_kind == "uncertainty"
-                                         and np.isfinite(fit.reduced_chi_square) else None),
                   "intercept": fit.intercept,
-                  "weights_column": weights_column,
-                  "weights_kind": weights_kind if weights_column else None, "domain": fit.domain.to_dict(),
+                  "weighting": {"column": weight_column, "kind": kind},
+                  "reduced_chi_square": _finite_or_none(fit.reduced_chi_square) if kind == "uncertainty" else None,
+                  "domain": fit.domain.to_dict(),
                   "legendre_coefficients": [float(v) for v in fit.legendre],
-                  "power_coefficients": fit.power_table(),
-                  "interval": None if fit.legendre_cov is None else {
-                      "residual_sd": fit.residual_sd, "df_residual": fit.df_residual,
+                  "power_coefficients": fit.power_rows(),
+                  "uncertainty": None if fit.legendre_cov is None else {
+                      "residual_sd": fit.residual_sd, "residual_df": fit.residual_df,
                       "legendre_covariance": np.asarray(fit.legendre_cov).tolist()}},
         "validation": {"scheme": surface_info["scheme"], "k": surface_info["k"],
                        "repeats": surface_info["repeats"], "seed": surface_info["seed"],
+                       "groups_from": surface_info.get("groups_from"),
+                       "folds_given_by": surface_info.get("folds_given_by"),
                        "cv_mse": float(cv["cv_mse"]), "cv_rmse": math.sqrt(float(cv["cv_mse"])),
-                       "cv_mse_se": None if not np.isfinite(cv["cv_mse_se"]) else float(cv["cv_mse_se"]),
+                       "cv_mse_se": _finite_or_none(cv["cv_mse_se"]),
                        "train_mse": float(cv["train_mse"]), "effective_df": float(fit.effective_df),
                        "rule": rule, "recommendation": surface_info["recommendation"],
-                       "sealed_test": surface_info["sealed_test"],
-                       "group_column": surface_info.get("group_column"),
-                       "fold_column": surface_info.get("fold_column")},
+                       "sealed_test": surface_info["sealed_test"]},
         "notes": notes,
     }
-    return Choice.from_dict(json.loads(json.dumps(doc)))
+    return Choice.from_dict(json.loads(json.dumps(doc, allow_nan=False)))
 
 
 def score(choice: Choice, x, y) -> dict:

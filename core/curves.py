@@ -1,5 +1,8 @@
 """Learning curves from one pass: training and CV error against training-set size.
 
+``size_curve`` computes one (a ``SizeCurve``); ``SizeCurve.reading`` says in one
+sentence what it implies for the question "would more measurements help?".
+
 For repeat r every row gets a fold (k-fold, as in ``core.folds``) and a
 uniform draw u from ``default_rng([seed, 17, r])``. The training subset of
 size fraction s in fold f is the fold's training rows with u < s, so subsets
@@ -24,11 +27,11 @@ from .params import check
 from .solve import FoldSolver
 from .validate import check_xyw, require_spread
 
-__all__ = ["LearningCurve", "learning_curve", "describe_learning_curve"]
+__all__ = ["SizeCurve", "size_curve"]
 
 
 @dataclass(frozen=True)
-class LearningCurve:
+class SizeCurve:
     """Training and CV MSE against training-set size.
 
     Attributes
@@ -62,12 +65,40 @@ class LearningCurve:
                 "train_mse_se": lst(self.train_mse_se), "cv_mse": lst(self.cv_mse),
                 "cv_mse_se": lst(self.cv_mse_se), "folds": self.folds,
                 "repeats": self.repeats, "seed": self.seed,
-                "reading": describe_learning_curve(self)}
+                "reading": self.reading()}
+
+    def reading(self) -> str:
+        """One sentence on whether more measurements would help, read off the last points.
+
+        The rule (stated so it can be checked): with e_cv and e_fit the CV and training
+        MSE at full size, if (e_cv - e_fit) / e_cv > 0.25 the setting follows noise;
+        otherwise, if CV MSE at full size is more than 3% below its value half-way
+        along the sizes, it is still dropping; otherwise both have levelled off.
+        Guidance, not a certainty.
+        """
+        ok = np.isfinite(self.cv_mse) & np.isfinite(self.train_mse)
+        if ok.sum() < 2:
+            return ("Too few sizes could be fitted to read a trend: this setting needs more rows "
+                    "per fold than most subsets have.")
+        cv, tr = self.cv_mse[ok], self.train_mse[ok]
+        gap = (cv[-1] - tr[-1]) / cv[-1] if cv[-1] > 0 else 0.0
+        half = max(1, len(cv) // 2)
+        drop = 1.0 - cv[-1] / cv[half - 1] if cv[half - 1] > 0 else 0.0
+        if gap > 0.25:
+            return (f"At full size this setting misses held-out rows by {100 * gap:.0f}% more (in MSE) than "
+                    "the rows it was fitted to: it is following noise in the sample. More measurements would "
+                    "close that gap; so would a stiffer setting (lower degree or larger lambda).")
+        if drop > 0.03:
+            return (f"Held-out error was still dropping at full size ({100 * drop:.0f}% lower than half-way "
+                    "along): more measurements of the same kind would probably improve this curve.")
+        return ("Held-out and fitted errors have levelled off together: more measurements of the same kind "
+                "are unlikely to improve this setting. If the error is still too large for the job, the setting "
+                "is too stiff for the trend: allow more flexibility.")
 
 
-def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.0, 10),
-                   folds: int = 10, repeats: int = 3, seed: int = 0, weights=None, groups=None,
-                   test_fraction: float = 0.0, intercept: bool = True) -> LearningCurve:
+def size_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.0, 10),
+               folds: int = 10, repeats: int = 3, seed: int = 0, weights=None, groups=None,
+               test_fraction: float = 0.0, intercept: bool = True) -> SizeCurve:
     """Learning curve of one configuration (see module docstring).
 
     Parameters
@@ -82,7 +113,7 @@ def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1
 
     Returns
     -------
-    LearningCurve
+    SizeCurve
     """
     p = check(degree=degree, lam=lam, sizes=sizes, intercept=intercept)
     degree, lam, sizes = p.degree, p.lam, p.sizes
@@ -140,27 +171,4 @@ def learning_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1
 
     trm, trs = mean_se(tr)
     cvm, cvs = mean_se(cv)
-    return LearningCurve(degree, lam, sizes, ntr.mean(axis=0), trm, trs, cvm, cvs, k, R, int(seed))
-
-
-def describe_learning_curve(lc: LearningCurve) -> str:
-    """One sentence of guidance read off the curve's last points (not a certainty).
-
-    Compares the final gap between CV and training error with the CV error
-    itself, and whether CV error was still falling over the last sizes.
-    """
-    ok = np.isfinite(lc.cv_mse) & np.isfinite(lc.train_mse)
-    if ok.sum() < 2:
-        return "Too few usable sizes to read a trend; add rows or lower the degree."
-    cv, tr = lc.cv_mse[ok], lc.train_mse[ok]
-    gap = (cv[-1] - tr[-1]) / cv[-1] if cv[-1] > 0 else 0.0
-    half = max(1, len(cv) // 2)
-    still_falling = cv[-1] < cv[half - 1] * 0.97
-    if gap > 0.25:
-        return ("Large gap between CV and training error: the curve is likely fitting noise; "
-                "more data or a larger lambda (or a lower degree) should help.")
-    if still_falling:
-        return ("CV error is still falling with more rows: more data would likely help a little; "
-                "the gap to training error is modest.")
-    return ("Training and CV errors have converged: more data alone is unlikely to help; if the "
-            "error is too high, the curve may be too stiff (try a higher degree or smaller lambda).")
+    return SizeCurve(degree, lam, sizes, ntr.mean(axis=0), trm, trs, cvm, cvs, k, R, int(seed))

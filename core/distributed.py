@@ -49,7 +49,7 @@ def expand_paths(spec) -> list[Path]:
     return files
 
 
-def _file_stats(path, offset, specs, missing, chunk_rows, acc_args, acc=None, on_chunk=None):
+def _file_stats(path, offset, specs, blank_rows, chunk_rows, acc_args, acc=None, on_chunk=None):
     """One file's statistics (a Dask task, or a step of the local engine given ``acc``).
 
     Returns the accumulator, edge rows of partial blocks still pending. ``on_chunk(rows)`` is
@@ -58,7 +58,7 @@ def _file_stats(path, offset, specs, missing, chunk_rows, acc_args, acc=None, on
     acc = BlockAccumulator(**acc_args) if acc is None else acc
     pos = offset
     for names, off, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
-        xv, yv, w, _, _ = chunk_columns(names, off, frame, decimal, Path(path).name, missing)
+        xv, yv, w, _, _ = chunk_columns(names, off, frame, decimal, Path(path).name, blank_rows)
         acc.add_rows(pos, xv, yv, w)
         pos += xv.size
         if on_chunk is not None:
@@ -92,7 +92,7 @@ def _engine_from(acc: BlockAccumulator, p, penalty, mix):
 
 def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
                 repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
-                penalty: str = "ridge", mix: float = 0.5, missing: str = "refuse", engine: str = "local",
+                penalty: str = "ridge", mix: float = 0.5, blank_rows: str = "refuse", engine: str = "local",
                 scheduler: str | None = None, client=None, chunk_rows: int = 200_000, block_rows: int = BLOCK_ROWS,
                 progress=None) -> tuple[Surface, dict]:
     """Cross-validated surface over the rows of several files (in order), by either engine.
@@ -107,7 +107,7 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
         raise ParameterError(message("Option --engine", "local or dask", repr(engine)))
     paths = [Path(p) for p in paths]
     specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
-    scan_kw = dict(x=x, y=y, weights=weights, uncertainty=uncertainty, missing=missing, chunk_rows=chunk_rows,
+    scan_kw = dict(x=x, y=y, weights=weights, uncertainty=uncertainty, blank_rows=blank_rows, chunk_rows=chunk_rows,
                    require_spread=False)
     t0 = time.perf_counter()
     own_cluster = None
@@ -127,13 +127,13 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
                         k=folds, repeats=repeats, test_fraction=test_fraction, block_rows=block_rows)
         # a response shift both engines agree on: the first file's first rows
         first = next(iter_chunks(paths[0], specs, chunk_rows=min(chunk_rows, 4096)))
-        yv = chunk_columns(*first[:2], first[2], first[3], paths[0].name, missing)[1]
+        yv = chunk_columns(*first[:2], first[2], first[3], paths[0].name, blank_rows)[1]
         acc_args["y_shift"] = float(np.round(np.mean(yv), 6)) if yv.size else 0.0
         if engine == "dask":
             from distributed import as_completed
 
             futures = client.map(_file_stats, [str(p) for p in paths], offsets[:-1].tolist(),
-                                 [specs] * len(paths), [missing] * len(paths), [chunk_rows] * len(paths),
+                                 [specs] * len(paths), [blank_rows] * len(paths), [chunk_rows] * len(paths),
                                  [acc_args] * len(paths), pure=False)
             parts = {}
             index = {f.key: i for i, f in enumerate(futures)}
@@ -153,7 +153,7 @@ def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None
             for p, off, sc in zip(paths, offsets[:-1], scans):
                 report = None if progress is None else \
                     (lambda rows, base=done_rows: progress(base + rows, total, time.perf_counter() - t0))
-                _file_stats(p, int(off), specs, missing, chunk_rows, acc_args, acc=acc, on_chunk=report)
+                _file_stats(p, int(off), specs, blank_rows, chunk_rows, acc_args, acc=acc, on_chunk=report)
                 done_rows += sc.rows_used
     finally:
         if own_cluster is not None:

@@ -26,27 +26,33 @@ from .params import check, combination
 from .solve import FoldSolver, solve_sets
 from .validate import check_xyw, require_spread
 
-__all__ = ["FitResult", "fit", "fit_from_engine", "interval_bounds"]
+__all__ = ["FitOutcome", "fit", "fit_from_engine", "band_limits", "BANDS"]
+
+BANDS = ("curve", "reading")
 
 
-def interval_bounds(yhat, t, cov, residual_sd, df, interval, level):
-    """Lower and upper t-based bounds from the Legendre-coefficient covariance (lambda = 0)."""
-    if interval not in ("confidence", "prediction"):
-        raise ParameterError(message("Parameter 'interval'", "None, 'confidence' or 'prediction'", repr(interval)))
-    level = check(level=level).level
+def band_limits(yhat, t, cov, residual_sd, df, band, coverage):
+    """Low and high t-based limits from the Legendre-coefficient covariance (lambda = 0).
+
+    ``band="curve"``: where the fitted curve itself lies (its standard error only);
+    ``band="reading"``: where one new reading lies (adds the residual variance).
+    """
+    if band not in BANDS:
+        raise ParameterError(message("Parameter 'band'", "'curve' or 'reading'", repr(band)))
+    coverage = check(coverage=coverage).coverage
     if cov is None:
-        raise ParameterError(message("Interval", "a lambda = 0 fit (classical intervals)",
-                                     "a penalized fit", "Use lambda = 0 for t-based intervals"))
+        raise ParameterError(message("Band", "a lambda = 0 fit (classical t-based bands)",
+                                     "a penalized fit", "Use lambda = 0 for t-based bands"))
     P = legendre_columns(np.asarray(t, dtype=float), cov.shape[0] - 1)
     var = np.einsum("ij,jk,ik->i", P, cov, P)
-    if interval == "prediction":
+    if band == "reading":
         var = var + residual_sd ** 2
-    half = stats.t.ppf(0.5 + level / 2, df) * np.sqrt(np.maximum(var, 0.0))
+    half = stats.t.ppf(0.5 + coverage / 2, df) * np.sqrt(np.maximum(var, 0.0))
     return yhat - half, yhat + half
 
 
 @dataclass(frozen=True)
-class FitResult:
+class FitOutcome:
     """A fitted curve and its summary.
 
     Attributes
@@ -58,14 +64,14 @@ class FitResult:
     power : ndarray of shape (degree + 1,)
         Raw-x form: yhat = power[0] + power[1] x + ... + power[d] x^d (power[0] = 0
         without intercept).
-    std_errors : ndarray of shape (degree + 1,) or None
+    standard_errors : ndarray of shape (degree + 1,) or None
         Classical standard errors of ``power`` (lambda = 0 only; NaN for the
         absent intercept).
     residual_sd : float
-        sqrt(SSE / df_residual), SSE weighted.
+        sqrt(SSE / residual_df), SSE weighted.
     r_squared : float
         1 - SSE / SST; SST centred with intercept, uncentred (sum w y^2) without.
-    df_residual : float
+    residual_df : float
         n - p at lambda = 0, n - effective_df otherwise.
     effective_df : float
         sum s_j^2 / (s_j^2 + lambda) over the standardized design's singular
@@ -83,10 +89,10 @@ class FitResult:
     intercept: bool
     curve: Curve
     power: np.ndarray = field(repr=False)
-    std_errors: np.ndarray | None = field(repr=False)
+    standard_errors: np.ndarray | None = field(repr=False)
     residual_sd: float
     r_squared: float
-    df_residual: float
+    residual_df: float
     effective_df: float
     n: int
     sse: float
@@ -107,44 +113,39 @@ class FitResult:
 
     @property
     def reduced_chi_square(self) -> float:
-        """SSE_w / df_residual: with weights 1/u^2 (standard uncertainties) it should be near 1
+        """SSE_w / residual_df: with weights 1/u^2 (standard uncertainties) it should be near 1
         when the curve and the stated uncertainties agree (common practice in calibration)."""
         return self.residual_sd ** 2
 
-    @property
-    def terms(self) -> list[str]:
-        first = 0 if self.intercept else 1
-        return ["1" if k == 0 else ("x" if k == 1 else f"x^{k}") for k in range(first, self.degree + 1)]
-
-    def predict(self, x, interval: str | None = None, level: float = 0.95):
+    def predict(self, x, band: str | None = None, coverage: float = 0.95):
         """Predictions at raw x from the stable form.
 
         Parameters
         ----------
         x : array_like of shape (m,)
-        interval : {None, "confidence", "prediction"}
-            With lambda = 0, the classical t-based interval for the mean curve
-            ("confidence") or for a new observation of unit weight ("prediction").
-        level : float
-            Coverage, e.g. 0.95.
+        band : {None, "curve", "reading"}
+            With lambda = 0, the classical t-based band where the fitted curve itself
+            lies ("curve") or where one new reading lies ("reading").
+        coverage : float
+            Share of cases the band covers, e.g. 0.95.
 
         Returns
         -------
-        ndarray of shape (m,), or (prediction, lower, upper) with an interval.
+        ndarray of shape (m,), or (prediction, low, high) with a band.
         """
         yhat = self.curve(x)
-        if interval is None:
+        if band is None:
             return yhat
         t = self.domain.map(np.asarray(x, dtype=float))
-        return (yhat, *interval_bounds(yhat, t, self.legendre_cov, self.residual_sd,
-                                       self.df_residual, interval, level))
+        return (yhat, *band_limits(yhat, t, self.legendre_cov, self.residual_sd, self.residual_df, band, coverage))
 
-    def power_table(self) -> list[dict]:
+    def power_rows(self) -> list[dict]:
+        """The raw-x power form: [{"power": k, "value": a_k, "standard_error": se or None}, ...]."""
         first = 0 if self.intercept else 1
         out = []
-        for term, k in zip(self.terms, range(first, self.degree + 1)):
-            se = None if self.std_errors is None else float(self.std_errors[k])
-            out.append({"term": term, "estimate": float(self.power[k]), "std_error": se})
+        for k in range(first, self.degree + 1):
+            se = None if self.standard_errors is None else float(self.standard_errors[k])
+            out.append({"power": k, "value": float(self.power[k]), "standard_error": se})
         return out
 
     def to_dict(self) -> dict:
@@ -152,11 +153,11 @@ class FitResult:
             "degree": self.degree, "lambda": self.lam, "intercept": self.intercept,
             "penalty": self.penalty, "mix": self.mix, "reduced_chi_square": self.reduced_chi_square,
             "n": self.n, "weighted": self.weighted,
-            "power_coefficients": self.power_table(),
+            "power_coefficients": self.power_rows(),
             "legendre_coefficients": [float(v) for v in self.legendre],
             "domain": self.domain.to_dict(),
             "residual_sd": self.residual_sd, "r_squared": self.r_squared,
-            "df_residual": self.df_residual, "effective_df": self.effective_df,
+            "residual_df": self.residual_df, "effective_df": self.effective_df,
             "sse": self.sse, "train_mse": self.train_mse,
             "x_range": list(self.x_range),
         }
@@ -206,7 +207,7 @@ def _ols_rows(x, y, w, degree, intercept, domain):
 
 
 def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = True,
-        penalty: str = "ridge", mix: float = 0.5) -> FitResult:
+        penalty: str = "ridge", mix: float = 0.5) -> FitOutcome:
     """Fit the regularized polynomial of one degree and lambda to all given rows.
 
     Parameters
@@ -229,7 +230,7 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
 
     Returns
     -------
-    FitResult
+    FitOutcome
 
     Raises
     ------
@@ -299,12 +300,12 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
         power = curve.power_form()
     r2 = 1.0 - sse / sst if sst > 0 else float("nan")
-    return FitResult(degree, lam, bool(intercept), curve, np.asarray(power, float), se, resid_sd, float(r2),
+    return FitOutcome(degree, lam, bool(intercept), curve, np.asarray(power, float), se, resid_sd, float(r2),
                      df_res, edf, int(n), float(sse), float(sse / np.sum(w)), weighted,
                      (float(x.min()), float(x.max())), leg_cov, penalty, mix_)
 
 
-def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
+def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitOutcome:
     """The fit on an engine's training rows, from its statistics alone (no rows needed).
 
     Used when the rows were streamed from a file. At lambda = 0 the coefficient
@@ -343,6 +344,6 @@ def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitResult:
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
     lo = domain.center - domain.half_width
     hi = domain.center + domain.half_width
-    return FitResult(degree, lam, sv.intercept, curve, curve.power_form(), se, resid_sd,
+    return FitOutcome(degree, lam, sv.intercept, curve, curve.power_form(), se, resid_sd,
                      float(1 - sse / sst) if sst > 0 else float("nan"), df_res, edf, int(n), sse,
                      train_mse, engine.weighted, (float(lo), float(hi)), leg_cov, engine.penalty, engine.mix)

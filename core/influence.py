@@ -16,27 +16,27 @@ from scipy.linalg import solve_triangular
 
 from .basis import legendre_columns
 from .errors import ParameterError, message
-from .fit import FitResult
+from .fit import FitOutcome
 from .validate import check_xyw
 
-__all__ = ["Influence", "influence"]
+__all__ = ["RowInfluence", "row_influence"]
 
 
 @dataclass(frozen=True)
-class Influence:
+class RowInfluence:
     """Per-row influence measures; ``flagged`` uses Cook's D > 4 / n (common practice)."""
 
     leverage: np.ndarray = field(repr=False)
-    studentized: np.ndarray = field(repr=False)
-    cooks_distance: np.ndarray = field(repr=False)
+    studentized_residual: np.ndarray = field(repr=False)
+    cook_d: np.ndarray = field(repr=False)
     threshold: float
 
     @property
     def flagged(self) -> np.ndarray:
-        return np.flatnonzero(self.cooks_distance > self.threshold)
+        return np.flatnonzero(self.cook_d > self.threshold)
 
 
-def influence(fit: FitResult, x, y, weights=None) -> Influence:
+def row_influence(fit: FitOutcome, x, y, weights=None) -> RowInfluence:
     """Influence of each row on a lambda = 0 fit (the rows the fit was made on)."""
     if fit.lam != 0.0:
         raise ParameterError(message("Influence measures", "a lambda = 0 fit", f"lambda = {fit.lam:g}",
@@ -57,4 +57,4 @@ def influence(fit: FitResult, x, y, weights=None) -> Influence:
     with np.errstate(divide="ignore", invalid="ignore"):
         r = sw * e / (s * np.sqrt(1.0 - h))
         d = r * r * h / (p * (1.0 - h))
-    return Influence(h, r, d, 4.0 / x.size)
+    return RowInfluence(h, r, d, 4.0 / x.size)

@@ -145,12 +145,10 @@ RULES = {
     "mix": ("mix", Number("a number in (0, 1]", lo=0.0, hi=1.0, lo_open=True)),
     "sizes": ("sizes", Values(Number("", lo=0.0, hi=1.0, lo_open=True), 1000, "fractions in (0, 1]")),
     "B": ("B", Integer(10, 100_000)),
-    "level": ("level", Number("a number between 0 and 1", lo=0.0, hi=1.0, lo_open=True, hi_open=True)),
+    "coverage": ("coverage", Number("a number between 0 and 1", lo=0.0, hi=1.0, lo_open=True, hi_open=True)),
     "noise_sd": ("noise_sd", Number("a finite number >= 0", lo=0.0)),
     "intercept": ("intercept", Flag()),
     "chunk_rows": ("chunk_rows", Integer(1, 100_000_000)),
-    "learning_rate": ("learning_rate", Number("a positive number", lo=0.0, lo_open=True)),
-    "iterations": ("iterations", Integer(1, 10_000_000)),
 }
 
 

@@ -11,10 +11,10 @@
 * train_mse[d, l]: mean over folds of the training-rows MSE;
 * gcv_mse[d, l]: generalized cross-validation on all training rows.
 
-Rules (Breiman et al. 1984; Hastie, Tibshirani & Friedman, ESL sec. 7.10):
-``min`` takes the lowest cv_mse; ``1se`` the simplest configuration whose
-cv_mse is within one standard error of that minimum, simpler meaning lower
-degree first, then larger lambda. After the grid, lambda is refined for the
+Rules: ``lowest`` takes the lowest cv_mse; ``simplest`` the simplest
+configuration whose cv_mse is within one standard error of that lowest value
+(the one-standard-error rule, Breiman et al. 1984; Hastie, Tibshirani &
+Friedman, ESL sec. 7.10), simpler meaning lower degree first, then larger lambda. After the grid, lambda is refined for the
 chosen degree by a bounded search in log(lambda) between the grid neighbours.
 """
 
@@ -33,6 +33,15 @@ from .errors import DataError, ParameterError, message
 from .params import check
 
 __all__ = ["Surface", "Recommendation", "SealedTest", "surface_from_engine", "grid_choices"]
+
+
+def _finite(v):
+    return float(v) if v is not None and math.isfinite(v) else None
+
+
+def _json_array(a: np.ndarray):
+    """Nested lists for JSON with None where a value is not finite (JSON has no NaN)."""
+    return np.where(np.isfinite(a), a, None).tolist() if a.size else []
 
 
 @dataclass(frozen=True)
@@ -80,7 +89,7 @@ class Recommendation:
     def to_dict(self) -> dict:
         return {"rule": self.rule, "degree": self.degree, "lambda": self.lam,
                 "grid_lambda": self.grid_lambda, "cv_mse": self.cv_mse,
-                "cv_rmse": math.sqrt(self.cv_mse), "cv_mse_se": self.cv_mse_se,
+                "cv_rmse": math.sqrt(self.cv_mse), "cv_mse_se": _finite(self.cv_mse_se),
                 "train_mse": self.train_mse, "effective_df": self.effective_df,
                 "degree_at_edge": self.degree_at_edge, "lambda_at_edge": self.lambda_at_edge}
 
@@ -121,9 +130,9 @@ class Surface:
     def to_dict(self) -> dict:
         return {
             "degrees": self.degrees.tolist(), "lambdas": self.lambdas.tolist(),
-            "cv_mse": self.cv_mse.tolist(), "cv_mse_se": self.cv_mse_se.tolist(),
-            "train_mse": self.train_mse.tolist(), "fold_mse": self.fold_mse.tolist(),
-            "effective_df": self.effective_df.tolist(), "gcv_mse": self.gcv_mse.tolist(),
+            "cv_mse": _json_array(self.cv_mse), "cv_mse_se": _json_array(self.cv_mse_se),
+            "train_mse": _json_array(self.train_mse), "fold_mse": _json_array(self.fold_mse),
+            "effective_df": _json_array(self.effective_df), "gcv_mse": _json_array(self.gcv_mse),
             "recommended": {k: v.to_dict() for k, v in self.recommended.items()},
             "folds": self.folds, "n_train": self.n_train, "intercept": self.intercept,
             "penalty": self.engine.penalty, "mix": self.engine.mix,
@@ -149,7 +158,7 @@ def _refine_min(engine: ScoringEngine, degree: int, lams: np.ndarray, i: int, be
     return float(lams[i]), best
 
 
-def _refine_1se(engine: ScoringEngine, degree: int, lams: np.ndarray, i: int, thr: float,
+def _refine_simplest(engine: ScoringEngine, degree: int, lams: np.ndarray, i: int, thr: float,
                 cv_row: np.ndarray) -> float:
     if i + 1 >= lams.size or lams[i] == 0 or not cv_row[i + 1] > thr:
         return float(lams[i])
@@ -167,7 +176,7 @@ def _refine_1se(engine: ScoringEngine, degree: int, lams: np.ndarray, i: int, th
 
 
 def grid_choices(cv: np.ndarray, se: np.ndarray) -> dict:
-    """Grid indices (degree row, lambda column) chosen by the ``min`` and ``1se`` rules.
+    """Grid indices (degree row, lambda column) chosen by the ``lowest`` and ``simplest`` rules.
 
     Rows must be in increasing degree and columns in increasing lambda, so
     "simplest" is the first row with an admissible cell, then its last
@@ -182,18 +191,18 @@ def grid_choices(cv: np.ndarray, se: np.ndarray) -> dict:
     ok = np.isfinite(cv) & (cv <= thr)
     d1 = int(np.flatnonzero(ok.any(axis=1))[0])
     l1 = int(np.flatnonzero(ok[d1])[-1])
-    return {"min": (int(di), int(li)), "1se": (d1, l1), "threshold": thr}
+    return {"lowest": (int(di), int(li)), "simplest": (d1, l1), "threshold": thr}
 
 
 def _recommend(engine, degrees, lams, cv, se) -> dict:
     g = grid_choices(cv, se)
-    di, li = g["min"]
+    di, li = g["lowest"]
     d = int(degrees[di])
     lam, _ = _refine_min(engine, d, lams, li, float(cv[di, li]))
-    out = {"min": _pick(engine, "min", d, lam, float(lams[li]), degrees, lams)}
-    d1, l1 = g["1se"]
-    lam1 = _refine_1se(engine, int(degrees[d1]), lams, l1, g["threshold"], cv[d1])
-    out["1se"] = _pick(engine, "1se", int(degrees[d1]), lam1, float(lams[l1]), degrees, lams)
+    out = {"lowest": _pick(engine, "lowest", d, lam, float(lams[li]), degrees, lams)}
+    d1, l1 = g["simplest"]
+    lam1 = _refine_simplest(engine, int(degrees[d1]), lams, l1, g["threshold"], cv[d1])
+    out["simplest"] = _pick(engine, "simplest", int(degrees[d1]), lam1, float(lams[l1]), degrees, lams)
     return out
 
 

@@ -128,21 +128,21 @@ def iter_chunks(path, specs: dict, *, chunk_rows: int = 500_000):
                                 "Check the delimiter and quoting of that line")) from None
 
 
-def chunk_columns(names, offset, frame, decimal, fname, missing):
+def chunk_columns(names, offset, frame, decimal, fname, blank_rows):
     """Validated float columns of one chunk and the mask of complete rows:
     (x, y, weights or None, keep mask, dict of every role's kept values)."""
     vals, miss = {}, np.zeros(len(frame), dtype=bool)
     for role in ("x", "y", "weights", "uncertainty"):
         if role in names:
-            v, m = parse_numbers(frame, names[role], fname, missing, decimal, offset=offset)
+            v, m = parse_numbers(frame, names[role], fname, blank_rows, decimal, offset=offset)
             vals[role] = v
             miss |= m
-    if miss.any() and missing == "refuse":
+    if miss.any() and blank_rows == "refuse":
         rows = (np.flatnonzero(miss) + offset + 2).tolist()
         shown = ", ".join(map(str, rows[:12])) + (" ..." if len(rows) > 12 else "")
         raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
                                 f"{len(rows)} row(s) with empty cells in this part of the file",
-                                "Fill them in, or pass --missing drop to leave those rows out"))
+                                "Fill them in, or pass --blank-rows skip to leave those rows out"))
     keep = ~miss
     out = {r: v[keep] for r, v in vals.items()}
     rows = np.flatnonzero(keep) + offset + 2
@@ -155,7 +155,7 @@ def chunk_columns(names, offset, frame, decimal, fname, missing):
     return out["x"], out["y"], w, keep, out
 
 
-def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "refuse",
+def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "refuse",
               chunk_rows: int = 500_000, require_spread: bool = True) -> Scan:
     """First read: validate, count, x range, fingerprints (see module docstring)."""
     path = Path(path)
@@ -166,7 +166,7 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "ref
     lo, hi = np.inf, -np.inf
     names = {}
     for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
-        xv, yv, w, keep, cols = chunk_columns(names, offset, frame, decimal, path.name, missing)
+        xv, yv, w, keep, cols = chunk_columns(names, offset, frame, decimal, path.name, blank_rows)
         n_read += len(frame)
         n_used += xv.size
         dropped.extend((np.flatnonzero(~keep) + offset + 2).tolist())
@@ -191,7 +191,7 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, missing: str = "ref
 
 def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
                repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
-               penalty: str = "ridge", mix: float = 0.5, missing: str = "refuse", chunk_rows: int = 500_000,
+               penalty: str = "ridge", mix: float = 0.5, blank_rows: str = "refuse", chunk_rows: int = 500_000,
                progress=None) -> tuple[Surface, Scan]:
     """``core.sweep`` over a file read in chunks; returns (surface, scan).
 
@@ -205,7 +205,7 @@ def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, 
               test_fraction=test_fraction, intercept=intercept, chunk_rows=chunk_rows)
     combination(penalty=penalty, mix=mix)
     max_degree = int(p.degrees.max())
-    sc = scan_file(path, x=x, y=y, weights=weights, uncertainty=uncertainty, missing=missing,
+    sc = scan_file(path, x=x, y=y, weights=weights, uncertainty=uncertainty, blank_rows=blank_rows,
                    chunk_rows=p.chunk_rows)
     plan = make_plan(sc.rows_used, folds=p.folds, repeats=p.repeats, seed=p.seed, test_fraction=p.test_fraction)
     labels = cell_labels(plan, max_degree)
@@ -214,7 +214,7 @@ def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, 
     pos = 0
     t0 = time.perf_counter()
     for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=p.chunk_rows):
-        xv, yv, w, _, _ = chunk_columns(names, offset, frame, decimal, Path(path).name, missing)
+        xv, yv, w, _, _ = chunk_columns(names, offset, frame, decimal, Path(path).name, blank_rows)
         acc.update(xv, yv, w, labels[:, pos:pos + xv.size])
         pos += xv.size
         if progress is not None:

@@ -200,7 +200,7 @@ def pick_column(columns, spec, role: str, fname: str) -> str:
                             "no such column", "Pass --" + role + " with a column name or position"))
 
 
-def parse_numbers(frame, col: str, fname: str, missing: str, decimal: str = ".", offset: int = 0):
+def parse_numbers(frame, col: str, fname: str, blank_rows: str, decimal: str = ".", offset: int = 0):
     """Float values and a missing-mask of one column; the first bad cell raises with its row.
 
     ``offset`` is the number of data rows before this frame (for chunked reading)."""
@@ -220,7 +220,7 @@ def parse_numbers(frame, col: str, fname: str, missing: str, decimal: str = ".",
     if bad.size:
         i = int(bad[0])
         raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", "a number", repr(raw.iloc[i]),
-                                "Mark missing values as empty cells or pass --missing drop"))
+                                "Correct the cell, or empty it if the value is missing"))
     inf = np.flatnonzero(np.isinf(vals))
     if inf.size:
         i = int(inf[0])
@@ -235,7 +235,7 @@ def parse_numbers(frame, col: str, fname: str, missing: str, decimal: str = ".",
 
 
 def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, fold=None,
-               missing: str = "refuse", sheet=None, require_spread: bool = True) -> Table:
+               blank_rows: str = "refuse", sheet=None, require_spread: bool = True) -> Table:
     """Read one file and select its columns.
 
     Parameters
@@ -250,8 +250,8 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         Standard-uncertainty column u; weights become 1 / u^2.
     group, fold : str, optional
         Group column (grouped folds) or explicit fold column.
-    missing : {"refuse", "drop"}
-        Refuse rows with empty/NaN cells (listing them) or drop them.
+    blank_rows : {"refuse", "skip"}
+        Refuse rows with empty/NaN cells (listing them) or skip them (recorded).
     require_spread : bool
         Refuse a single distinct x (needed to fit; not to apply a saved curve).
 
@@ -263,8 +263,8 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     import pandas as pd
 
     path = Path(path)
-    if missing not in ("refuse", "drop"):
-        raise DataError(message("Option --missing", "'refuse' or 'drop'", missing))
+    if blank_rows not in ("refuse", "skip"):
+        raise DataError(message("Option --blank-rows", "'refuse' or 'skip'", repr(blank_rows)))
     frame, raw, notices = read_frame(path, sheet)
     fname = path.name
     cols = [str(c) for c in frame.columns]
@@ -281,7 +281,7 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     decimal = frame.attrs.get("decimal", ".")
     roles = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
     chosen = {r: pick_column(frame.columns, s, r, fname) for r, s in roles.items() if s is not None}
-    numeric = {r: parse_numbers(frame, c, fname, missing, decimal) for r, c in chosen.items()}
+    numeric = {r: parse_numbers(frame, c, fname, blank_rows, decimal) for r, c in chosen.items()}
     any_missing = np.zeros(len(frame), dtype=bool)
     for r, (v, m) in numeric.items():
         any_missing |= m
@@ -293,11 +293,11 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
             any_missing |= (vals == "") | (vals == "nan")
             extra[role] = (c, vals)
     dropped = (np.flatnonzero(any_missing) + 2).tolist()
-    if dropped and missing == "refuse":
+    if dropped and blank_rows == "refuse":
         shown = ", ".join(map(str, dropped[:12])) + (" ..." if len(dropped) > 12 else "")
         raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
                                 f"{len(dropped)} row(s) with empty cells",
-                                "Fill them in, or pass --missing drop to leave those rows out"))
+                                "Fill them in, or pass --blank-rows skip to leave those rows out"))
     keep = ~any_missing
     if keep.sum() == 0:
         raise DataError(message(f"File '{fname}'", "at least one complete row", "none"))
@@ -324,5 +324,5 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         extra["fold"][1][keep] if "fold" in extra else None,
         int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices),
         extra["group"][0] if "group" in extra else None, extra["fold"][0] if "fold" in extra else None,
-        "uncertainty" if "uncertainty" in numeric else ("weights" if "weights" in numeric else None),
+        "uncertainty" if "uncertainty" in numeric else ("relative" if "weights" in numeric else None),
         np.flatnonzero(keep) + 2)

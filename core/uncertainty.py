@@ -4,9 +4,9 @@
   whole groups) drawn with replacement by ``default_rng([seed, 29])``; each
   resample's statistics are the original rows' weighted by their counts, so no
   row is copied. The spread of the curves shows variance directly.
-* ``bootstrap_interval``: percentile intervals from those refits; a prediction
-  interval adds to each refit a residual of the original fit drawn at random
-  (centred and inflated by sqrt(n / (n - df)), the usual leverage correction).
+* ``bootstrap_band``: percentile bands from those refits; the band for a new
+  reading adds to each refit a residual of the original fit drawn at random
+  (centred and leverage-corrected).
   Used for lambda > 0, where the classical t interval does not apply.
 * ``bias_variance``: for a fixed design and a known (or the fitted) curve f, ridge
   predictions are linear in y, yhat = S y, so over repeated data sets
@@ -29,7 +29,7 @@ from .penalties import ridge_filter
 from .solve import FoldSolver, solve_sets
 from .validate import check_xyw
 
-__all__ = ["bootstrap_curves", "bootstrap_interval", "bias_variance", "bias_variance_from_sets", "BiasVariance"]
+__all__ = ["bootstrap_curves", "bootstrap_band", "bias_variance", "bias_variance_from_sets", "BiasVariance"]
 
 
 def _design(x, y, w, degree, domain):
@@ -69,13 +69,16 @@ def bootstrap_curves(x, y, degree: int, lam: float, grid, *, B: int = 400, seed:
     return out[np.isfinite(out).all(axis=1)]
 
 
-def bootstrap_interval(x, y, degree: int, lam: float, grid, *, interval: str = "prediction", level: float = 0.95,
-                       B: int = 399, seed: int = 0, weights=None, groups=None, intercept: bool = True,
-                       penalty: str = "ridge", mix: float = 0.5):
-    """(fit, lower, upper) at ``grid`` by the percentile bootstrap (see module docstring)."""
-    if interval not in ("confidence", "prediction"):
-        raise ParameterError(message("Parameter 'interval'", "'confidence' or 'prediction'", repr(interval)))
-    level = check(level=level).level
+def bootstrap_band(x, y, degree: int, lam: float, grid, *, band: str = "reading", coverage: float = 0.95,
+                   B: int = 399, seed: int = 0, weights=None, groups=None, intercept: bool = True,
+                   penalty: str = "ridge", mix: float = 0.5):
+    """(fit, low, high) at ``grid`` by the percentile bootstrap (see module docstring).
+
+    ``band="curve"``: where the fitted curve lies; ``band="reading"``: where one new reading lies.
+    """
+    if band not in ("curve", "reading"):
+        raise ParameterError(message("Parameter 'band'", "'curve' or 'reading'", repr(band)))
+    level = check(coverage=coverage).coverage
     x, y, w = check_xyw(x, y, weights)
     grid = np.asarray(grid, dtype=float)
     f = _fit(x, y, degree, lam, weights=weights, intercept=intercept, penalty=penalty, mix=mix)
@@ -86,7 +89,7 @@ def bootstrap_interval(x, y, degree: int, lam: float, grid, *, interval: str = "
                                      curves.shape[0], "Lower the degree, or use ridge at this degree"))
     yhat = f.predict(grid)
     a = (1 - level) / 2
-    if interval == "confidence":
+    if band == "curve":
         lo, hi = _order_quantiles(curves, a)
         return yhat, lo, hi
     # prediction error delta* = (yhat + e*) - yhat*, e* a leverage-modified residual

@@ -1,5 +1,5 @@
 """``curvewright apply``: predict new rows with a saved choice file, as CSV (the input's columns plus
-prediction, interval and an extrapolation flag)."""
+prediction, band limits and an extrapolation flag)."""
 
 from __future__ import annotations
 
@@ -7,7 +7,9 @@ import sys
 
 from core.files import write_atomic
 
-from .common import add_force, add_missing, add_out, add_sheet, load_rows
+from core import defaults
+
+from .common import add_blank_rows, add_force, add_out, add_sheet, load_rows
 
 
 def add_parser(subparsers):
@@ -16,8 +18,11 @@ def add_parser(subparsers):
     p.add_argument("data", help="rows to predict (CSV/TSV, .xlsx, .parquet)")
     p.add_argument("--x", required=True)
     add_out(p, help="output CSV (default: standard output)")
-    p.add_argument("--level", type=float, default=0.95, help="prediction-interval coverage")
-    add_missing(p)
+    p.add_argument("--band", choices=["reading", "curve"], default="reading",
+                   help="band written beside each prediction: where one new reading lies (default) or where "
+                        "the curve lies")
+    p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the band covers (default 0.95)")
+    add_blank_rows(p)
     add_sheet(p)
     add_force(p)
     return p
@@ -27,28 +32,29 @@ def run(args, out) -> int:
     from core.choice import Choice
 
     c = Choice.load(args.choice)
-    t, frame = load_rows(args.data, args.x, None, args.missing, args.sheet)
-    outside = _add_predictions(c, t.x.values, frame, args.level)
+    for note in c.notices:
+        print(f"note: {note}", file=sys.stderr)
+    t, frame = load_rows(args.data, args.x, None, args.blank_rows, args.sheet)
+    outside = _add_predictions(c, t.x.values, frame, args.band, args.coverage)
     _write_table(args, frame, out)
     if outside.any():
         lo_x, hi_x = c.x_range
         print(f"warning: {int(outside.sum())} row(s) lie outside the fitted x range [{lo_x:g}, {hi_x:g}]: "
               "those predictions are extrapolations.", file=sys.stderr)
-    if not c.has_interval:
-        print("note: no prediction interval: the choice has lambda > 0 (classical intervals need lambda = 0).",
-              file=sys.stderr)
+    if not c.has_band:
+        print("note: no band: the choice has lambda > 0 (classical bands need lambda = 0).", file=sys.stderr)
     return 0
 
 
-def _add_predictions(c, x, frame, level):
-    """Prediction, interval bounds (when the choice has them) and the outside-range flag as new
+def _add_predictions(c, x, frame, band, coverage):
+    """Prediction, band limits (when the choice has them) and the outside-range flag as new
     columns of ``frame``; returns the flag."""
     frame["prediction"] = c.predict(x)
-    if c.has_interval:
-        _, lo, hi = c.predict(x, interval="prediction", level=level)
-        pct = f"{100 * level:g}"
-        frame[f"prediction_lower_{pct}"] = lo
-        frame[f"prediction_upper_{pct}"] = hi
+    if c.has_band:
+        _, lo, hi = c.predict(x, band=band, coverage=coverage)
+        pct = f"{100 * coverage:g}"
+        frame[f"{band}_low_{pct}"] = lo
+        frame[f"{band}_high_{pct}"] = hi
     lo_x, hi_x = c.x_range
     outside = (x < lo_x) | (x > hi_x)
     frame["outside_fitted_range"] = outside

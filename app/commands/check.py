@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from .common import add_force, add_json, add_missing, add_sheet, load_rows, write_json
+from .common import add_blank_rows, add_force, add_json, add_sheet, load_rows, write_json
 
 
 def add_parser(subparsers):
@@ -13,7 +13,7 @@ def add_parser(subparsers):
     p.add_argument("data")
     p.add_argument("--x", required=True)
     p.add_argument("--y", required=True)
-    add_missing(p)
+    add_blank_rows(p)
     add_sheet(p)
     add_json(p)
     add_force(p)
@@ -24,7 +24,9 @@ def run(args, out) -> int:
     from core.choice import Choice, score
 
     c = Choice.load(args.choice)
-    t, _ = load_rows(args.data, args.x, args.y, args.missing, args.sheet)
+    for note in c.notices:
+        print(f"note: {note}", file=sys.stderr)
+    t, _ = load_rows(args.data, args.x, args.y, args.blank_rows, args.sheet)
     sc = score(c, t.x.values, t.y.values)
     _print_scores(c, sc, out)
     _warn_about_rows(c, t, sc)

@@ -18,8 +18,8 @@ from core.files import write_atomic
 from core.table import exclude_rows, read_table
 
 __all__ = [
-    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "Parser", "Progress", "add_data_args", "add_degree_lambda",
-    "add_fold_args", "add_folds", "add_force", "add_json", "add_missing", "add_out", "add_penalty_args",
+    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "Parser", "Progress", "add_blank_rows", "add_data_args", "add_degree_lambda",
+    "add_fold_args", "add_folds", "add_force", "add_json", "add_out", "add_penalty_args",
     "add_repeats", "add_seed", "add_sheet", "describe_os_error", "fmt", "load_rows", "output_paths",
     "parse_degrees", "parse_grid", "read_data", "write_json",
 ]
@@ -85,8 +85,9 @@ def parse_grid(spec: str, *, log: bool, option: str) -> np.ndarray:
 # ---- argument groups -------------------------------------------------------------------------
 # Each helper adds its options in a fixed order: the order is what `--help` and usage lines show.
 
-def add_missing(p):
-    p.add_argument("--missing", choices=["refuse", "drop"], default="refuse")
+def add_blank_rows(p):
+    p.add_argument("--blank-rows", choices=["refuse", "skip"], default="refuse",
+                   help="rows with a blank selected cell: refuse the file (default) or skip them (recorded)")
 
 
 def add_sheet(p, help=None):
@@ -94,17 +95,17 @@ def add_sheet(p, help=None):
 
 
 def add_data_args(p, need_y=True):
-    """The data file and its columns: data, --x, --y, --weights, --uncertainty, --missing, --sheet,
-    --no-intercept, --exclude."""
+    """The data file and its columns: data, --x, --y, --weights, --uncertainty, --blank-rows, --sheet,
+    --through-origin, --exclude."""
     p.add_argument("data", help="CSV/TSV, .xlsx or .parquet file with a header row")
     p.add_argument("--x", required=True, help="x column (name or 1-based position)")
     if need_y:
         p.add_argument("--y", required=True, help="response column (name or 1-based position)")
     p.add_argument("--weights", help="weight column (positive)")
     p.add_argument("--uncertainty", help="standard-uncertainty column u (weight = 1/u^2)")
-    add_missing(p)
+    add_blank_rows(p)
     add_sheet(p, help="worksheet of an .xlsx file (default: the first)")
-    p.add_argument("--no-intercept", action="store_true", help="fit through the origin")
+    p.add_argument("--through-origin", action="store_true", help="fit a curve through the origin (no constant term)")
     p.add_argument("--exclude", default="", help="spreadsheet rows to leave out, e.g. 7,19 (recorded)")
 
 
@@ -155,7 +156,7 @@ def add_force(p, help=None):
 def read_data(args, extra=None):
     """The table named by the data-file arguments; exclusions, notes and dropped rows go to stderr."""
     table = read_table(args.data, x=args.x, y=args.y, weights=args.weights,
-                       uncertainty=args.uncertainty, missing=args.missing, sheet=args.sheet,
+                       uncertainty=args.uncertainty, blank_rows=args.blank_rows, sheet=args.sheet,
                        **(extra or {}))
     if getattr(args, "exclude", ""):
         try:
@@ -168,17 +169,17 @@ def read_data(args, extra=None):
     for note in table.notices:
         print(f"note: {note}", file=sys.stderr)
     if table.rows_dropped:
-        print(f"note: dropped {len(table.rows_dropped)} row(s) with missing values "
+        print(f"note: skipped {len(table.rows_dropped)} row(s) with blank cells "
               f"(rows {', '.join(map(str, table.rows_dropped[:10]))}"
               f"{' ...' if len(table.rows_dropped) > 10 else ''}).", file=sys.stderr)
     return table
 
 
-def load_rows(path, x, y, missing, sheet):
+def load_rows(path, x, y, blank_rows, sheet):
     """Validated x (and y) plus the original frame's kept rows, for apply and check."""
     from core.table import read_frame
 
-    t = read_table(path, x=x, y=y, missing=missing, sheet=sheet, require_spread=False)
+    t = read_table(path, x=x, y=y, blank_rows=blank_rows, sheet=sheet, require_spread=False)
     frame, _, _ = read_frame(Path(path), sheet)
     drop = set(r - 2 for r in t.rows_dropped)
     frame = frame.iloc[[i for i in range(len(frame)) if i not in drop]].reset_index(drop=True)

@@ -1,4 +1,4 @@
-"""``curvewright fit``: one degree and lambda; the coefficient table and, on request, an interval,
+"""``curvewright fit``: one degree and lambda; the coefficient table and, on request, a band,
 the influential rows, the bias/variance split and the fit as JSON."""
 
 from __future__ import annotations
@@ -17,8 +17,10 @@ def add_parser(subparsers):
     add_data_args(p)
     add_degree_lambda(p)
     add_penalty_args(p)
-    p.add_argument("--interval", choices=["confidence", "prediction"],
-                   help="print the interval at 7 points across the range (lambda = 0: t-based; else bootstrap)")
+    p.add_argument("--band", choices=["curve", "reading"],
+                   help="print a band at 7 points across the range: where the curve lies, or where one new "
+                        "reading lies (lambda = 0: t-based; else bootstrap)")
+    p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the band covers (default 0.95)")
     p.add_argument("--influence", action="store_true", help="list influential rows (lambda = 0: Cook's D > 4/n)")
     p.add_argument("--bias-variance", action="store_true",
                    help="split the expected error into bias^2, variance and noise, simulated from this fit")
@@ -32,10 +34,10 @@ def add_parser(subparsers):
 def run(args, out) -> int:
     t = read_data(args)
     r = core.fit(t.x.values, t.y.values, args.degree, args.lam, weights=t.weights,
-                 intercept=not args.no_intercept, penalty=args.penalty, mix=args.mix)
+                 intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
     _print_coefficients(r, t, out)
-    if args.interval:
-        _print_interval(args, r, t, out)
+    if args.band:
+        _print_band(args, r, t, out)
     if args.influence:
         _print_influence(r, t, out)
     if args.bias_variance and args.replicates:
@@ -51,31 +53,32 @@ def _print_coefficients(r, t, out):
     """The header line, the power-basis coefficient table and the goodness-of-fit line(s)."""
     print(f"degree {r.degree}, lambda {fmt(r.lam)}, {r.n} rows"
           + (", weighted" if r.weighted else "") + ("" if r.intercept else ", through origin"), file=out)
-    print(f"{'term':>6}  {'estimate':>20}  {'std error':>18}", file=out)
-    for row in r.power_table():
-        print(f"{row['term']:>6}  {row['estimate']:>20.12g}  {fmt(row['std_error']):>18}", file=out)
+    print(f"{'power':>6}  {'value':>20}  {'standard error':>18}", file=out)
+    for row in r.power_rows():
+        print(f"{'x^' + str(row['power']):>6}  {row['value']:>20.12g}  {fmt(row['standard_error']):>18}", file=out)
     print(f"residual SD {fmt(r.residual_sd)}   R-squared {fmt(r.r_squared)}"
-          f"{'' if r.intercept else ' (uncentred)'}   residual df {fmt(r.df_residual)}"
+          f"{'' if r.intercept else ' (uncentred)'}   residual df {fmt(r.residual_df)}"
           f"   effective df {fmt(r.effective_df)}", file=out)
     if t.weight_kind == "uncertainty":
         print(f"reduced chi-square {fmt(r.reduced_chi_square)} (near 1 when curve and stated uncertainties "
               "agree)", file=out)
 
 
-def _print_interval(args, r, t, out):
-    """The requested interval at 7 points across the x range: t-based at lambda = 0, else bootstrap."""
+def _print_band(args, r, t, out):
+    """The requested band at 7 points across the x range: t-based at lambda = 0, else bootstrap."""
     xs = np.linspace(r.x_range[0], r.x_range[1], 7)
     if r.legendre_cov is not None:
-        yhat, lo, hi = r.predict(xs, interval=args.interval)
+        yhat, lo, hi = r.predict(xs, band=args.band, coverage=args.coverage)
         how = "t-based"
     else:
-        from core.uncertainty import bootstrap_interval
+        from core.uncertainty import bootstrap_band
 
-        yhat, lo, hi = bootstrap_interval(t.x.values, t.y.values, args.degree, args.lam, xs,
-                                          interval=args.interval, weights=t.weights, B=defaults.BOOTSTRAP_B,
-                                          intercept=not args.no_intercept, penalty=args.penalty, mix=args.mix)
+        yhat, lo, hi = bootstrap_band(t.x.values, t.y.values, args.degree, args.lam, xs, band=args.band,
+                                      coverage=args.coverage, weights=t.weights, B=defaults.BOOTSTRAP_B,
+                                      intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
         how = f"bootstrap, {defaults.BOOTSTRAP_B} resamples"
-    print(f"95% {args.interval} interval ({how}):", file=out)
+    what = "the fitted curve" if args.band == "curve" else "one new reading"
+    print(f"{100 * args.coverage:g}% band for {what} ({how}):", file=out)
     for a, b_, c_, d_ in zip(xs, yhat, lo, hi):
         print(f"  x {a:>12.6g}  fit {b_:>14.8g}  [{c_:.8g}, {d_:.8g}]", file=out)
 
@@ -85,12 +88,12 @@ def _print_influence(r, t, out):
     if r.lam != 0:
         print("note: influence measures are classical (lambda = 0); refit with --lambda 0.", file=out)
         return
-    from core.influence import influence
+    from core.influence import row_influence
 
-    inf = influence(r, t.x.values, t.y.values, t.weights)
+    inf = row_influence(r, t.x.values, t.y.values, t.weights)
     rows = t.row_numbers[inf.flagged]
     print(f"influential rows (Cook's D > 4/n = {inf.threshold:.3g}, common practice): "
-          + (", ".join(f"row {int(n)} (D {inf.cooks_distance[i]:.3g}, studentized {inf.studentized[i]:.2f})"
+          + (", ".join(f"row {int(n)} (D {inf.cook_d[i]:.3g}, studentized {inf.studentized_residual[i]:.2f})"
                        for n, i in zip(rows, inf.flagged)) or "none"), file=out)
 
 
@@ -98,10 +101,10 @@ def _print_replicate_variance(args, out):
     """Variance and noise estimated from the repeated data sets named by --replicates."""
     from core.uncertainty import bias_variance_from_sets
 
-    rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, missing=args.missing, sheet=args.sheet)
+    rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, blank_rows=args.blank_rows, sheet=args.sheet)
     sets = [(rt.x.values[rt.groups == g], rt.y.values[rt.groups == g]) for g in np.unique(rt.groups)]
     grid = np.linspace(rt.x.values.min(), rt.x.values.max(), 101)
-    est = bias_variance_from_sets(sets, args.degree, args.lam, grid, intercept=not args.no_intercept,
+    est = bias_variance_from_sets(sets, args.degree, args.lam, grid, intercept=not args.through_origin,
                                   penalty=args.penalty, mix=args.mix)
     print(f"from {est['n_sets']} repeated data sets ('{args.replicates}'): variance {est['variance']:.4g}, "
           f"noise {est['noise']:.4g}; bias^2 needs the true curve (not estimable from replicates alone)",
@@ -113,7 +116,7 @@ def _print_bias_variance(args, r, t, out):
     from core.uncertainty import bias_variance
 
     bv = bias_variance(t.x.values, r.predict, r.residual_sd, args.degree, args.lam, weights=t.weights,
-                       intercept=not args.no_intercept)
+                       intercept=not args.through_origin)
     print(f"expected squared error at new x (simulated from this fit, noise SD {r.residual_sd:.4g}): "
           f"bias^2 {bv.bias2:.4g} + variance {bv.variance:.4g} + noise {bv.noise:.4g} = {bv.expected_mse:.4g} "
           f"(simulation of {bv.n_sets} data sets: bias^2 {bv.simulated_bias2:.4g}, variance "

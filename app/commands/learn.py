@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import core
+from core import defaults
 
 from .common import (add_data_args, add_degree_lambda, add_fold_args, add_force, add_json, fmt, parse_grid,
                      read_data, write_json)
@@ -13,7 +14,7 @@ def add_parser(subparsers):
     add_data_args(p)
     add_degree_lambda(p)
     p.add_argument("--sizes", default="0.1:1:10", help="fractions START:STOP:COUNT")
-    add_fold_args(p, repeats=3)
+    add_fold_args(p, repeats=defaults.LEARN_REPEATS)
     add_json(p)
     add_force(p)
     return p
@@ -22,9 +23,9 @@ def add_parser(subparsers):
 def run(args, out) -> int:
     t = read_data(args)
     sizes = parse_grid(args.sizes, log=False, option="--sizes")
-    lc = core.learning_curve(t.x.values, t.y.values, args.degree, args.lam, sizes=sizes,
-                             folds=args.folds, repeats=args.repeats, seed=args.seed,
-                             weights=t.weights, intercept=not args.no_intercept)
+    lc = core.size_curve(t.x.values, t.y.values, args.degree, args.lam, sizes=sizes,
+                         folds=args.folds, repeats=args.repeats, seed=args.seed,
+                         weights=t.weights, intercept=not args.through_origin)
     _print_curve(lc, out)
     if args.json:
         write_json(args.json, lc.to_dict(), force=args.force)
@@ -38,4 +39,4 @@ def _print_curve(lc, out):
     for i, s in enumerate(lc.sizes):
         print(f"{s:>6.3g}  {lc.n_train[i]:>8.1f}  {fmt(lc.train_mse[i]):>12}  {fmt(lc.cv_mse[i]):>12}"
               f"  {fmt(lc.cv_mse_se[i]):>10}", file=out)
-    print(core.describe_learning_curve(lc), file=out)
+    print(lc.reading(), file=out)

@@ -36,7 +36,7 @@ def add_parser(subparsers):
     add_repeats(p, 1)
     g = p.add_mutually_exclusive_group()
     g.add_argument("--group", help="group column: rows sharing a value stay in one fold")
-    g.add_argument("--fold-column", help="explicit fold column")
+    g.add_argument("--fold-ids", help="column giving each row's fold (explicit folds)")
     add_seed(p)
     p.add_argument("--test-fraction", type=float, default=defaults.TEST_FRACTION,
                    help=f"share of rows sealed away before cross-validation (default {defaults.TEST_FRACTION:g})")
@@ -49,7 +49,9 @@ def add_parser(subparsers):
     p.add_argument("--save-stats", help="write the sufficient statistics (JSON) for `curvewright open --stats`")
     add_json(p, help="write the surface as JSON here")
     p.add_argument("--save", help="write the choice file (JSON) for the recommended or picked curve")
-    p.add_argument("--rule", choices=["1se", "min"], default="1se", help="recommendation saved by --save")
+    p.add_argument("--rule", choices=["simplest", "lowest"], default="simplest",
+                   help="recommendation saved by --save: the simplest curve within one standard error of the "
+                        "lowest CV error (default), or the lowest CV error")
     p.add_argument("--pick-degree", type=int, help="save this degree instead of the recommendation")
     p.add_argument("--pick-lambda", type=float, help="save this lambda instead of the recommendation")
     p.add_argument("--notes", default="", help="free text stored in the choice file")
@@ -100,17 +102,17 @@ def _sweep(args, degrees, lams):
         return _sweep_engine(args, degrees, lams)
     if args.stream or (streamable and path.is_file() and path.stat().st_size > defaults.STREAM_BYTES):
         return _sweep_streamed(args, degrees, lams)
-    t = read_data(args, {"group": args.group, "fold": args.fold_column})
+    t = read_data(args, {"group": args.group, "fold": args.fold_ids})
     s = core.sweep(t.x.values, t.y.values, degrees, lams, folds="loo" if args.loo else args.folds,
                    repeats=args.repeats, groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
-                   test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                   test_fraction=args.test_fraction, intercept=not args.through_origin,
                    penalty=args.penalty, mix=args.mix)
     return s, t
 
 
 def _refuse_row_options(args, how: str):
     """Options that need every row in memory are refused by name for the chunked readers."""
-    used = [name for name, on in (("--group", args.group), ("--fold-column", args.fold_column),
+    used = [name for name, on in (("--group", args.group), ("--fold-ids", args.fold_ids),
                                   ("--loo", args.loo), ("--exclude", args.exclude)) if on]
     if used:
         raise ParameterError(message(f"Option {how}", "k-fold folds over every row (the file is read in chunks)",
@@ -125,11 +127,11 @@ def _sweep_streamed(args, degrees, lams):
     _refuse_row_options(args, "--stream")
     s, sc = sweep_file(args.data, degrees, lams, x=args.x, y=args.y, weights=args.weights,
                        uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
-                       test_fraction=args.test_fraction, intercept=not args.no_intercept,
+                       test_fraction=args.test_fraction, intercept=not args.through_origin,
                        penalty=args.penalty, mix=args.mix,
-                       missing=args.missing, chunk_rows=args.chunk_rows, progress=Progress())
+                       blank_rows=args.blank_rows, chunk_rows=args.chunk_rows, progress=Progress())
     if sc.rows_dropped:
-        print(f"note: dropped {len(sc.rows_dropped)} row(s) with missing values.", file=sys.stderr)
+        print(f"note: skipped {len(sc.rows_dropped)} row(s) with blank cells.", file=sys.stderr)
     return s, sc
 
 
@@ -139,8 +141,8 @@ def _sweep_engine(args, degrees, lams):
     _refuse_row_options(args, "--engine")
     s, info = sweep_files(expand_paths(args.data), degrees, lams, x=args.x, y=args.y, weights=args.weights,
                           uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
-                          test_fraction=args.test_fraction, intercept=not args.no_intercept,
-                          penalty=args.penalty, mix=args.mix, missing=args.missing,
+                          test_fraction=args.test_fraction, intercept=not args.through_origin,
+                          penalty=args.penalty, mix=args.mix, blank_rows=args.blank_rows,
                           engine=args.engine or "local", scheduler=args.scheduler,
                           chunk_rows=min(args.chunk_rows, 200_000), progress=Progress())
     return s, _Info(info)
@@ -206,16 +208,15 @@ def _save_choice(args, t, s, out):
             "excluded_rows": list(getattr(t, "excluded_rows", ()))}
     if streamed:
         data.update({"x_column": t.x_name, "y_column": t.y_name, "x_unit": t.x_unit, "y_unit": t.y_unit})
-        kind = "uncertainty" if args.uncertainty else ("weights" if args.weights else None)
+        kind = "uncertainty" if args.uncertainty else ("relative" if args.weights else None)
         c = make_choice(None, None, s, d, lam, rule=rule_of(s, d, lam), data=data,
-                        weights_column=t.weight_name, notes=args.notes, version=core.__version__,
-                        weights_kind=kind)
+                        weight_column=t.weight_name, weight_kind=kind, notes=args.notes, version=core.__version__)
     else:
         data.update({"x_column": t.x.name, "y_column": t.y.name, "x_unit": t.x.unit, "y_unit": t.y.unit})
         c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
-                        weights=t.weights, weights_column=t.weight_column, notes=args.notes,
-                        version=core.__version__, group_column=t.group_column, fold_column=t.fold_column,
-                        weights_kind=t.weight_kind)
+                        weights=t.weights, weight_column=t.weight_column, weight_kind=t.weight_kind,
+                        notes=args.notes, version=core.__version__, groups_from=t.group_column,
+                        folds_given_by=t.fold_column)
     c.save(args.save, force=args.force)
     print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
 

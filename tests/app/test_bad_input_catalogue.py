@@ -24,18 +24,18 @@ CASES = [
     ("duplicated header", {"f.csv": "x,y,x\n1,2,3\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
      "File 'f.csv' header: expected distinct column names, got repeated 'x'. Rename the repeated columns."),
     ("text in y", {"f.csv": "x,y\n1,2\n2,abc\n3,4\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
-     "File 'f.csv' column 'y' row 3: expected a number, got 'abc'. Mark missing values as empty cells or pass --missing drop."),
+     "File 'f.csv' column 'y' row 3: expected a number, got 'abc'. Correct the cell, or empty it if the value is missing."),
     ("text in x", {"f.csv": "x,y\n1,2\nn/a,3\n3,4\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
-     "File 'f.csv' column 'x' row 3: expected a number, got 'n/a'. Mark missing values as empty cells or pass --missing drop."),
+     "File 'f.csv' column 'x' row 3: expected a number, got 'n/a'. Correct the cell, or empty it if the value is missing."),
     ("infinite x", {"f.csv": "x,y\n1,2\ninf,3\n3,4\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
      "File 'f.csv' column 'x' row 3: expected a finite number, got 'inf'. Replace infinite values or remove the row."),
     ("minus infinity y", {"f.csv": "x,y\n1,2\n2,3\n3,-Infinity\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
      "File 'f.csv' column 'y' row 4: expected a finite number, got '-Infinity'. Replace infinite values or remove the row."),
     ("NaN text is missing", {"f.csv": "x,y\n1,2\n2,NaN\n3,4\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
-     "File 'f.csv' rows 3: expected a value in every selected column, got 1 row(s) with empty cells. Fill them in, or pass --missing drop to leave those rows out."),
+     "File 'f.csv' rows 3: expected a value in every selected column, got 1 row(s) with empty cells. Fill them in, or pass --blank-rows skip to leave those rows out."),
     ("empty cells", {"f.csv": "x,y\n1,2\n,3\n3,\n4,5\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
-     "File 'f.csv' rows 3, 4: expected a value in every selected column, got 2 row(s) with empty cells. Fill them in, or pass --missing drop to leave those rows out."),
-    ("all rows incomplete", {"f.csv": "x,y\n1,\n,3\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1", "--missing", "drop"],
+     "File 'f.csv' rows 3, 4: expected a value in every selected column, got 2 row(s) with empty cells. Fill them in, or pass --blank-rows skip to leave those rows out."),
+    ("all rows incomplete", {"f.csv": "x,y\n1,\n,3\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1", "--blank-rows", "skip"],
      "File 'f.csv': expected at least one complete row, got none."),
     ("single distinct x", {"f.csv": "x,y\n2,1\n2,3\n2,4\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1"],
      "File 'f.csv' column 'x': expected at least two distinct x values, got only 2.0. A curve cannot be fitted against a single x value."),
@@ -79,7 +79,7 @@ CASES = [
      ["sweep", "{dir}/f.csv", "--x", "x", "--y", "y", "--degrees", "0-2", "--group", "g", "--test-fraction", "0"],
      "Group column: expected at least 10 distinct groups for 10 folds, got 3 groups. Use fewer folds or ungrouped folds."),
     ("single fold value", {"f.csv": "x,y,f\n" + "".join(f"{i},{2 * i + 1},a\n" for i in range(12))},
-     ["sweep", "{dir}/f.csv", "--x", "x", "--y", "y", "--degrees", "0-2", "--fold-column", "f"],
+     ["sweep", "{dir}/f.csv", "--x", "x", "--y", "y", "--degrees", "0-2", "--fold-ids", "f"],
      "Fold column: expected at least 2 distinct fold values, got 1."),
     ("corrupt workbook", {"f.xlsx": b"this is not a workbook"}, ["fit", "{dir}/f.xlsx", "--x", "x", "--y", "y", "--degree", "1"],
      "File 'f.xlsx': expected a readable .xlsx workbook, got a file that is not a zip archive."),
@@ -115,8 +115,8 @@ def test_catalogue_is_large_enough():
 
 def test_missing_drop_reports_the_count(tmp_path, capsys):
     (tmp_path / "f.csv").write_text(GOOD + "13,\n,5\n")
-    assert main(["fit", str(tmp_path / "f.csv"), "--x", "x", "--y", "y", "--degree", "1", "--missing", "drop"]) == 0
-    assert "dropped 2 row(s) with missing values (rows 14, 15)" in capsys.readouterr().err
+    assert main(["fit", str(tmp_path / "f.csv"), "--x", "x", "--y", "y", "--degree", "1", "--blank-rows", "skip"]) == 0
+    assert "skipped 2 row(s) with blank cells (rows 14, 15)" in capsys.readouterr().err
 
 
 def test_decimal_comma_semicolon_bom_latin1(tmp_path, capsys):

@@ -26,12 +26,12 @@ def test_fit_prints_table_and_writes_json(tmp_path, capsys):
     """NIST StRD Pontius through the CLI: certified B2 in the JSON (LRE >= 9)."""
     out = tmp_path / "fit.json"
     code, text, _ = run(["fit", PONTIUS, "--x", "x", "--y", "y", "--degree", 2, "--json", out], capsys)
-    assert code == 0 and "x^2" in text and "residual SD" in text
+    assert code == 0 and "x^2" in text and "residual SD" in text and "standard error" in text
     doc = json.loads(out.read_text())
     b2 = doc["power_coefficients"][2]
-    assert b2["term"] == "x^2"
-    assert abs(b2["estimate"] + 0.316081871345029e-14) / 0.316081871345029e-14 < 1e-9
-    for key in ("residual_sd", "r_squared", "df_residual", "effective_df"):
+    assert b2["power"] == 2
+    assert abs(b2["value"] + 0.316081871345029e-14) / 0.316081871345029e-14 < 1e-9
+    for key in ("residual_sd", "r_squared", "residual_df", "effective_df"):
         assert key in doc
 
 
@@ -39,12 +39,12 @@ def test_sweep_json_layout(tmp_path, capsys):
     out = tmp_path / "s.json"
     code, text, _ = run(["sweep", FURNACE, "--x", 1, "--y", "yield", "--degrees", "0-6",
                          "--lambdas", "1e-4:1e2:7", "--with-zero", "--folds", 5, "--json", out], capsys)
-    assert code == 0 and "recommended (1se)" in text
+    assert code == 0 and "recommended (simplest)" in text
     doc = json.loads(out.read_text())
     assert doc["degrees"] == list(range(7)) and len(doc["lambdas"]) == 8 and doc["lambdas"][0] == 0
     assert np.array(doc["cv_mse"]).shape == (7, 8)
-    assert set(doc["recommended"]) == {"min", "1se"}
-    assert {"degree", "lambda", "cv_mse"} <= set(doc["recommended"]["min"])
+    assert set(doc["recommended"]) == {"lowest", "simplest"}
+    assert {"degree", "lambda", "cv_mse"} <= set(doc["recommended"]["lowest"])
 
 
 def test_learn_prints_core_learning_curve(capsys, tmp_path):
@@ -57,7 +57,7 @@ def test_learn_prints_core_learning_curve(capsys, tmp_path):
                          "--sizes", "0.2:1:5", "--repeats", 2, "--json", out], capsys)
     assert code == 0
     t = read_table(FURNACE, x=1, y=2)
-    ref = core.learning_curve(t.x.values, t.y.values, 3, 0.01, sizes=np.linspace(0.2, 1, 5), repeats=2)
+    ref = core.size_curve(t.x.values, t.y.values, 3, 0.01, sizes=np.linspace(0.2, 1, 5), repeats=2)
     doc = json.loads(out.read_text())
     np.testing.assert_allclose(doc["cv_mse"], ref.cv_mse, rtol=1e-12)
     rows = [ln.split() for ln in text.splitlines() if ln[:6].strip() in {"0.2", "0.4", "0.6", "0.8", "1"}]

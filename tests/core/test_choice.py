@@ -55,7 +55,7 @@ def tampered(doc, path, value):
 
 
 @pytest.mark.parametrize("path, value, text", [
-    (("version",), 2, "Choice file field 'version': expected 1, got 2."),
+    (("version",), 3, "Choice file field 'version': expected 1 or 2, got 3."),
     (("model", "degree"), "three", "Choice file field 'model/degree'"),
     (("model", "lambda"), -1.0, "Choice file field 'model/lambda'"),
     (("model", "penalty"), "magic", "Choice file field 'model/penalty'"),
@@ -88,12 +88,12 @@ def test_intervals_stored_at_lambda_zero_match_statsmodels():
 
     c, s, x, y = choice_for(lam=0.0, test_fraction=0.0)
     grid = np.linspace(0, 5, 9)
-    yhat, lo, hi = c.predict(grid, interval="prediction")
+    yhat, lo, hi = c.predict(grid, band="reading")
     ref = sm.OLS(y, np.vander(x, 3, increasing=True)).fit().get_prediction(np.vander(grid, 3, increasing=True))
     frame = ref.summary_frame(alpha=0.05)
     np.testing.assert_allclose(lo, frame.obs_ci_lower, rtol=1e-10)
     np.testing.assert_allclose(hi, frame.obs_ci_upper, rtol=1e-10)
-    assert not choice_for(lam=0.1)[0].has_interval
+    assert not choice_for(lam=0.1)[0].has_band
 
 
 def test_to_sklearn_predicts_the_same():
@@ -131,7 +131,7 @@ def test_cli_save_apply_check_round_trip(tmp_path, capsys):
                  "--folds", "5", "--group", "run", "--save", str(choice), "--pick-degree", "2",
                  "--pick-lambda", "0", "--folds", "3", "--test-fraction", "0"]) == 0
     doc = json.loads(choice.read_text())
-    assert doc["validation"]["scheme"] == "group" and doc["model"]["interval"] is not None
+    assert doc["validation"]["scheme"] == "group" and doc["model"]["uncertainty"] is not None
     new = tmp_path / "new.csv"
     new.write_text("load [kN],note\n0.0,zero\n6.0,mid\n20.0,far\n")
     out = tmp_path / "pred.csv"
@@ -142,7 +142,7 @@ def test_cli_save_apply_check_round_trip(tmp_path, capsys):
     import pandas as pd
 
     pred = pd.read_csv(out)
-    assert list(pred.columns) == ["load [kN]", "note", "prediction", "prediction_lower_95", "prediction_upper_95",
+    assert list(pred.columns) == ["load [kN]", "note", "prediction", "reading_low_95", "reading_high_95",
                                   "outside_fitted_range"]
     assert pred["outside_fitted_range"].tolist() == [True, False, True]
     np.testing.assert_array_equal(pred["prediction"], Choice.load(choice).predict([0.0, 6.0, 20.0]))
@@ -150,3 +150,65 @@ def test_cli_save_apply_check_round_trip(tmp_path, capsys):
     assert main(["check", str(choice), str(data), "--x", "load", "--y", "deflection"]) == 0
     text = capsys.readouterr()
     assert "RMSE" in text.out and "same fingerprint" in text.err
+
+
+DATA = Path(__file__).resolve().parent / "data"
+
+
+@pytest.mark.parametrize("name", ["choice_v1_lambda0", "choice_v1_ridge"])
+def test_version_1_files_load_with_todays_names_and_predict_bit_identically(name):
+    """Files written by curvewright 0.1 (kept as fixtures) load with a notice, carry today's keys, and predict
+    exactly numpy's Legendre series of the numbers stored in the file (the 0.1 evaluation)."""
+    raw = json.loads((DATA / f"{name}.json").read_text())
+    c = Choice.load(DATA / f"{name}.json")
+    assert c.notices and "curvewright 0.1" in c.notices[0]
+    assert c.doc["version"] == 2 and set(c.doc["validation"]["recommendation"]) == {"lowest", "simplest"}
+    assert c.doc["validation"]["rule"] in ("lowest", "simplest", "manual")
+    assert all(set(row) == {"power", "value", "standard_error"} for row in c.doc["model"]["power_coefficients"])
+    jsonschema.validate(c.doc, SCHEMA)
+    m = raw["model"]
+    grid = np.linspace(-30, 130, 77)
+    t = (grid - m["domain"]["center"]) / m["domain"]["half_width"]
+    assert np.array_equal(c.predict(grid), np.polynomial.legendre.legval(t, np.array(m["legendre_coefficients"])))
+
+
+@pytest.mark.parametrize("name", ["choice_v1_lambda0", "choice_v1_ridge"])
+def test_apply_on_version_1_files_gives_the_numbers_0_1_wrote(name, tmp_path, capsys):
+    """apply on a 0.1 choice file writes the predictions and band limits that curvewright 0.1's own apply wrote
+    (its output is kept as a fixture), and says the file was read with today's names."""
+    import pandas as pd
+
+    readings = DATA / ("furnace_new_v1.csv" if name.endswith("lambda0") else "readings_v1.csv")
+    out = tmp_path / "p.csv"
+    assert main(["apply", str(DATA / f"{name}.json"), str(readings), "--x", "1", "--out", str(out)]) == 0
+    assert "curvewright 0.1" in capsys.readouterr().err
+    old = pd.read_csv(DATA / f"apply_v1_{name.split('_')[-1]}.csv")
+    new = pd.read_csv(out)
+    np.testing.assert_array_equal(new["prediction"], old["prediction"])
+    np.testing.assert_array_equal(new["reading_low_95"], old["prediction_lower_95"])
+    np.testing.assert_array_equal(new["reading_high_95"], old["prediction_upper_95"])
+
+
+def test_shipped_schema_is_the_generated_one():
+    """core/choice_schema.json equals core.choice_schema.schema() (regenerate with python -m core.choice_schema)."""
+    from core.choice_schema import schema
+
+    shipped = json.loads((ROOT / "core" / "choice_schema.json").read_text())
+    assert shipped == schema() == SCHEMA
+
+
+def test_saved_choice_carries_only_todays_names(tmp_path):
+    """A saved choice has none of the 0.1 key names anywhere in it."""
+    c, *_ = choice_for()
+    text = c.to_json()
+    for old in ('"min"', '"1se"', '"term"', '"estimate"', '"std_error"', '"interval"', '"df_residual"',
+                '"fold_column"', '"weights_column"', '"group_column"', '"weights_kind"'):
+        assert old not in text, old
+
+
+def test_nan_and_infinity_literals_are_refused():
+    """JSON has no NaN or Infinity; a file holding them is refused by name before the schema is consulted."""
+    c, *_ = choice_for()
+    text = c.to_json().replace(f'"cv_mse": {c.doc["validation"]["cv_mse"]!r}', '"cv_mse": NaN', 1)
+    with pytest.raises(DataError, match=r"Choice file: expected finite numbers \(JSON has no NaN or Infinity\), got NaN"):
+        Choice.from_json(text)

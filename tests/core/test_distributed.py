@@ -61,7 +61,7 @@ def test_dask_equals_local_for_any_partitioning(client, data, tmp_path):
                                  engine="dask", client=client)
         np.testing.assert_allclose(got.fold_mse, ref.fold_mse, rtol=1e-12, atol=0)
         assert ginfo["rows_used"] == x.size and got.engine.n_test == ref.engine.n_test
-        assert got.recommended["1se"].degree == ref.recommended["1se"].degree
+        assert got.recommended["simplest"].degree == ref.recommended["simplest"].degree
 
 
 def test_worker_killed_mid_run_gives_correct_result(client, data, tmp_path):

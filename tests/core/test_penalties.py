@@ -56,7 +56,7 @@ def test_lasso_surface_and_sparsity():
     """The lasso zeroes coefficients as lambda grows; the surface and recommendation work."""
     x, y = invented()
     s = core.sweep(x, y, range(0, 7), np.logspace(-4, 2, 9), folds=5, penalty="lasso")
-    assert np.all(np.isfinite(s.cv_mse)) and s.recommended["1se"].degree <= 6
+    assert np.all(np.isfinite(s.cv_mse)) and s.recommended["simplest"].degree <= 6
     assert s.effective_df[6, -1] < s.effective_df[6, 0]
     with pytest.raises(core.ParameterError, match=r"Parameter 'mix': expected a number in \(0, 1\]"):
         core.fit(x, y, 2, 1.0, penalty="elastic", mix=0.0)

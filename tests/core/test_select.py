@@ -20,15 +20,15 @@ def test_one_se_rule_on_hand_built_surface():
     se = np.full_like(cv, 0.05)
     se[2, 0] = 0.20
     g = grid_choices(cv, se)
-    assert g["min"] == (2, 0)
-    assert g["1se"] == (1, 1)
+    assert g["lowest"] == (2, 0)
+    assert g["simplest"] == (1, 1)
     assert g["threshold"] == pytest.approx(1.20)
 
 
 def test_grid_choices_ignore_nan_cells():
     cv = np.array([[np.nan, 2.0], [1.0, np.nan]])
     g = grid_choices(cv, np.full_like(cv, 0.5))
-    assert g["min"] == (1, 0) and g["1se"] == (1, 0)
+    assert g["lowest"] == (1, 0) and g["simplest"] == (1, 0)
 
 
 def invented(n=300, seed=0):
@@ -49,7 +49,7 @@ def test_refined_lambda_is_the_minimum_between_grid_neighbours():
     x, y = invented()
     grid = np.logspace(-6, 4, 11)
     s = core.sweep(x, y, range(8, 13), grid, folds=5)        # high degrees: an interior lambda is best
-    rec = s.recommended["min"]
+    rec = s.recommended["lowest"]
     assert not rec.lambda_at_edge
     split = PredefinedSplit(s.engine.plan.labels[0])
 
@@ -75,7 +75,7 @@ def test_simplest_pick_sits_on_the_one_standard_error_bar():
 
     x, y = invented()
     s = core.sweep(x, y, range(1, 8), np.logspace(-6, 4, 11), folds=5)
-    one = s.recommended["1se"]
+    one = s.recommended["simplest"]
     bar = grid_choices(s.cv_mse, s.cv_mse_se)["threshold"]
     model = make_pipeline(PolynomialFeatures(one.degree, include_bias=False), StandardScaler(), Ridge(alpha=one.lam))
     sk = -cross_val_score(model, x[:, None], y, cv=PredefinedSplit(s.engine.plan.labels[0]),

@@ -31,7 +31,7 @@ def test_streamed_surface_equals_in_memory(csv, chunk_rows):
                        test_fraction=0.2, chunk_rows=chunk_rows)
     np.testing.assert_allclose(s.fold_mse, ref.fold_mse, rtol=1e-9)
     assert sc.columns_sha256 == t.columns_sha256 and sc.file_sha256 == t.file_sha256
-    assert sc.rows_used == 2000 and s.recommended["1se"].degree == ref.recommended["1se"].degree
+    assert sc.rows_used == 2000 and s.recommended["simplest"].degree == ref.recommended["simplest"].degree
 
 
 def test_parquet_streams_too(csv, tmp_path):
@@ -59,5 +59,5 @@ def test_fit_from_statistics_matches_rows(csv):
     e = core.build_engine(t.x.values, t.y.values, max_degree=5, folds=3)
     a, b = fit_from_engine(e, 5, 0.0), core.fit(t.x.values, t.y.values, 5, 0.0)
     np.testing.assert_allclose(a.power, b.power, rtol=1e-10)
-    np.testing.assert_allclose(a.std_errors, b.std_errors, rtol=1e-10)
+    np.testing.assert_allclose(a.standard_errors, b.standard_errors, rtol=1e-10)
     assert a.residual_sd == pytest.approx(b.residual_sd, rel=1e-10)

@@ -62,7 +62,7 @@ def test_fuzz_csv_like_text_raises_only_data_errors(tmp_path, text):
     p = tmp_path / "fuzz.csv"
     p.write_text(text)
     try:
-        t = read_table(p, x=1, y=2, missing="drop")
+        t = read_table(p, x=1, y=2, blank_rows="skip")
     except DataError as exc:
         assert str(exc) and "\n" not in str(exc)
     else:

@@ -5,7 +5,7 @@ import pytest
 from scipy.stats import norm
 
 import core
-from core.uncertainty import bias_variance, bootstrap_curves, bootstrap_interval, smoother
+from core.uncertainty import bias_variance, bootstrap_curves, bootstrap_band, smoother
 
 f_true = lambda t: 1 + 0.5 * t - 0.3 * t ** 2          # noqa: E731  (invented known curve)
 
@@ -23,9 +23,9 @@ def test_lambda_zero_intervals_match_statsmodels_wls():
     g = np.linspace(0, 2, 6)
     ref = sm.WLS(y, np.vander(x, 3, increasing=True), weights=w).fit().get_prediction(
         np.vander(g, 3, increasing=True)).summary_frame(alpha=0.05)
-    _, lo, hi = r.predict(g, interval="confidence")
+    _, lo, hi = r.predict(g, band="curve")
     np.testing.assert_allclose(lo, ref.mean_ci_lower, rtol=1e-10)
-    _, lo, hi = r.predict(g, interval="prediction")
+    _, lo, hi = r.predict(g, band="reading")
     np.testing.assert_allclose(hi, ref.obs_ci_upper, rtol=1e-10)
 
 
@@ -39,7 +39,7 @@ def test_lambda_zero_intervals_match_statsmodels_on_pontius():
     g = np.linspace(d["x"].min(), d["x"].max(), 5)
     ref = sm.OLS(d["y"], np.vander(d["x"], 3, increasing=True)).fit().get_prediction(
         np.vander(g, 3, increasing=True)).summary_frame(alpha=0.05)
-    _, lo, hi = r.predict(g, interval="prediction")
+    _, lo, hi = r.predict(g, band="reading")
     np.testing.assert_allclose(lo, ref.obs_ci_lower, rtol=1e-7)
 
 
@@ -55,7 +55,7 @@ def test_bootstrap_prediction_interval_coverage_by_simulation():
     for s in range(300):
         x = rng.uniform(0, 3, 60)
         y = f_true(x) + 0.2 * rng.normal(size=60)
-        _, lo, hi = bootstrap_interval(x, y, 2, 0.05, g, B=199, seed=s)
+        _, lo, hi = bootstrap_band(x, y, 2, 0.05, g, B=199, seed=s)
         cov.append(norm.cdf((hi - f_true(g)) / 0.2) - norm.cdf((lo - f_true(g)) / 0.2))
     assert 0.93 <= np.mean(cov) <= 0.97
 

@@ -1,0 +1,93 @@
+"""The choice file's JSON Schema, written as data (``python -m core.choice_schema`` prints it).
+
+The shipped ``choice_schema.json`` is this schema; a test keeps the two equal. Every
+object is closed (no extra properties), digests are hexadecimal, degrees are integers.
+Non-finite numbers cannot appear: the loader refuses NaN and Infinity literals before
+the schema is consulted (JSON itself has no such numbers).
+"""
+
+from __future__ import annotations
+
+import json
+
+__all__ = ["schema", "VERSION", "FORMAT"]
+
+FORMAT = "curvewright-choice"
+VERSION = 2
+
+NUMBER = {"type": "number"}
+NUMBER_OR_NULL = {"type": ["number", "null"]}
+TEXT_OR_NULL = {"type": ["string", "null"]}
+SHA256 = {"type": "string", "pattern": "^[0-9a-f]{64}$"}
+SHA256_OR_NULL = {"oneOf": [{"type": "null"}, SHA256]}
+DEGREE = {"type": "integer", "minimum": 0, "maximum": 30}
+ROWS = {"type": "array", "items": {"type": "integer", "minimum": 1}}
+
+
+def closed(properties: dict, required=None) -> dict:
+    """An object with exactly these properties (all required unless ``required`` says otherwise)."""
+    return {"type": "object", "required": list(properties if required is None else required),
+            "properties": properties, "additionalProperties": False}
+
+
+def _recommendation() -> dict:
+    return closed({
+        "rule": {"enum": ["lowest", "simplest"]}, "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
+        "grid_lambda": {"type": "number", "minimum": 0}, "cv_mse": {"type": "number", "minimum": 0},
+        "cv_rmse": {"type": "number", "minimum": 0}, "cv_mse_se": NUMBER_OR_NULL,
+        "train_mse": {"type": "number", "minimum": 0}, "effective_df": {"type": "number", "minimum": 0},
+        "degree_at_edge": {"type": "boolean"}, "lambda_at_edge": {"type": "boolean"}})
+
+
+def _sealed() -> dict:
+    props = {"fraction": {"type": "number", "minimum": 0, "exclusiveMaximum": 1},
+             "n": {"type": "integer", "minimum": 0}, "revealed": {"type": "boolean"},
+             "revealed_at": TEXT_OR_NULL, "mse": {"type": "number", "minimum": 0},
+             "rmse": {"type": "number", "minimum": 0}, "degree": DEGREE, "lambda": {"type": "number", "minimum": 0}}
+    return closed(props, required=["fraction", "n", "revealed", "revealed_at"])
+
+
+def schema() -> dict:
+    """The JSON Schema (draft 2020-12) of a version-2 choice file."""
+    data = closed({
+        "file": TEXT_OR_NULL, "file_sha256": SHA256_OR_NULL, "columns_sha256": SHA256,
+        "rows_used": {"type": "integer", "minimum": 1}, "rows_dropped": ROWS, "excluded_rows": ROWS,
+        "x_column": {"type": "string"}, "y_column": {"type": "string"}, "x_unit": TEXT_OR_NULL,
+        "y_unit": TEXT_OR_NULL, "x_range": {"type": "array", "items": NUMBER, "minItems": 2, "maxItems": 2}})
+    square = {"type": "array", "items": {"type": "array", "items": NUMBER}}
+    model = closed({
+        "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
+        "penalty": {"enum": ["ridge", "lasso", "elastic"]}, "mix": {"type": "number", "minimum": 0, "maximum": 1},
+        "intercept": {"type": "boolean"},
+        "weighting": closed({"column": TEXT_OR_NULL, "kind": {"enum": ["relative", "uncertainty", None]}}),
+        "reduced_chi_square": NUMBER_OR_NULL,
+        "domain": closed({"center": NUMBER, "half_width": {"type": "number", "exclusiveMinimum": 0}}),
+        "legendre_coefficients": {"type": "array", "items": NUMBER, "minItems": 1, "maxItems": 31},
+        "power_coefficients": {"type": "array", "maxItems": 31, "items": closed({
+            "power": DEGREE, "value": NUMBER, "standard_error": NUMBER_OR_NULL})},
+        "uncertainty": {"oneOf": [{"type": "null"}, closed({
+            "residual_sd": {"type": "number", "minimum": 0}, "residual_df": {"type": "number", "exclusiveMinimum": 0},
+            "legendre_covariance": square})]},
+    })
+    validation = closed({
+        "scheme": {"enum": ["kfold", "group", "explicit", "hash", "loo"]},
+        "k": {"type": "integer", "minimum": 2}, "repeats": {"type": "integer", "minimum": 1},
+        "seed": {"type": "integer", "minimum": 0}, "groups_from": TEXT_OR_NULL, "folds_given_by": TEXT_OR_NULL,
+        "cv_mse": {"type": "number", "minimum": 0}, "cv_rmse": {"type": "number", "minimum": 0},
+        "cv_mse_se": NUMBER_OR_NULL, "train_mse": {"type": "number", "minimum": 0},
+        "effective_df": {"type": "number", "minimum": 0}, "rule": {"enum": ["lowest", "simplest", "manual"]},
+        "recommendation": closed({"lowest": _recommendation(), "simplest": _recommendation()}),
+        "sealed_test": _sealed()})
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": f"curvewright-choice-{VERSION}",
+        "title": f"curvewright choice file, version {VERSION}",
+        **closed({
+            "format": {"const": FORMAT}, "version": {"const": VERSION}, "created": {"type": "string"},
+            "software": closed({"name": {"const": "curvewright"}, "version": {"type": "string"}}),
+            "data": data, "model": model, "validation": validation, "notes": {"type": "string"}}),
+    }
+
+
+if __name__ == "__main__":
+    print(json.dumps(schema(), indent=2))
