@@ -46,7 +46,7 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
                                     "outside the sealed test set", n_train,
                                     "Lower the highest degree or use a smaller test fraction"))
         return build_loo_engine(x, y, wt, mask, seed=p.seed, test_fraction=p.test_fraction,
-                                max_degree=p.max_degree, intercept=p.intercept)
+                                max_degree=p.max_degree, intercept=p.intercept, penalty=penalty)
     plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
                      seed=p.seed, test_fraction=p.test_fraction)
     labels = cell_labels(plan, p.max_degree)
@@ -83,8 +83,10 @@ def sweep(x, y, degrees, lambdas, *, folds: int | str = 10, repeats: int = 1, gr
     test_fraction : float
         Rows sealed away before folding (scored only by ``Surface.reveal_test``).
     intercept : bool
-    penalty : {"ridge", "lasso", "elastic"}
-        Penalty on the standardized coefficients (``core.penalties``).
+    penalty : {"ridge", "curvature", "lasso", "elastic"}
+        Ridge, lasso and elastic net penalize the standardized power coefficients;
+        curvature penalizes the integral of the curve's squared second derivative over
+        the mapped x range (straight lines are free; ``core.penalties``).
     mix : float
         Elastic-net share of the L1 term (0 < mix <= 1).
 

@@ -29,7 +29,8 @@ from .errors import ParameterError, message
 from .folds import FoldPlan
 from .moments import Moments, complement_sums
 from .params import check, combination
-from .solve import FoldBatch, FoldSolver, solve_sets
+from .batch import FoldBatch, solve_sets
+from .solve import FoldSolver
 
 __all__ = ["ScoringEngine", "FoldEngine", "engine_from_moments", "fold_mean_se"]
 
@@ -122,7 +123,8 @@ class ScoringEngine(ABC):
         return self.full.curve(self._full(degree, lams)[0][0])
 
     def effective_df(self, degree: int, lams) -> np.ndarray:
-        """df(lambda) of the all-rows fit (ESL eq. 3.50 for ridge, plus one for the intercept)."""
+        """df(lambda) of the all-rows fit: the smoother's trace (ESL eq. 3.50 for ridge), plus one for
+        the intercept."""
         degree, lams = self._args(degree, lams)
         return self._full(degree, lams)[1].copy()
 
@@ -234,9 +236,9 @@ def engine_from_moments(moments: Moments, plan: FoldPlan, *, penalty: str = "rid
     moments : Moments
         Cells ``r * k + f`` then the sealed cell (see ``core.folds.cell_labels``).
     plan : FoldPlan
-    penalty : {"ridge", "lasso", "elastic"}
+    penalty : {"ridge", "curvature", "lasso", "elastic"}
     mix : float
-        The elastic net's L1 share (ignored for ridge and the lasso).
+        The elastic net's L1 share (ignored for the others).
     intercept : bool
 
     Raises

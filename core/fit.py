@@ -23,7 +23,8 @@ from .curve import Curve
 from .errors import DataError, ParameterError, message
 from .moments import accumulate
 from .params import check, combination
-from .solve import FoldSolver, solve_sets
+from .batch import solve_sets
+from .solve import FoldSolver
 from .validate import check_xyw, require_spread
 
 __all__ = ["FitOutcome", "fit", "fit_from_engine", "band_limits", "BANDS"]
@@ -207,7 +208,7 @@ def _ols_rows(x, y, w, degree, intercept, domain):
 
 
 def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = True,
-        penalty: str = "ridge", mix: float = 0.5) -> FitOutcome:
+        penalty: str = "ridge", mix: float = 0.5, domain: Domain | None = None) -> FitOutcome:
     """Fit the regularized polynomial of one degree and lambda to all given rows.
 
     Parameters
@@ -222,11 +223,15 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         Positive row weights (default 1).
     intercept : bool
         False fits through the origin (yhat(0) = 0).
-    penalty : {"ridge", "lasso", "elastic"}
-        lambda * (mix * sum |b| + (1 - mix) * sum b^2) on the standardized
-        coefficients (``core.penalties``); ridge is mix = 0, lasso mix = 1.
+    penalty : {"ridge", "curvature", "lasso", "elastic"}
+        Ridge, lasso and elastic net: lambda * (mix * sum |b| + (1 - mix) * sum b^2) on the
+        standardized coefficients; ridge is mix = 0, lasso mix = 1. Curvature:
+        (1/W) sum w r^2 + lambda * integral over t in [-1, 1] of f''(t)^2 (``core.penalties``).
     mix : float
         The elastic net's L1 share.
+    domain : Domain, optional
+        The x -> t map (default: the rows' own range). The curvature penalty integrates over
+        its window, so a fit that must match a sweep's curve passes the sweep's domain.
 
     Returns
     -------
@@ -261,7 +266,7 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
                                     distinct, "Lower the degree or use lambda > 0"))
         if n <= npar:
             raise DataError(message(f"Rows for degree {degree}", f"more than {npar} rows", n))
-    domain = Domain.from_range(x.min(), x.max())
+    domain = Domain.from_range(x.min(), x.max()) if domain is None else domain
     ybar = np.average(y, weights=w)
     if intercept:
         sst = float(np.sum(w.astype(np.longdouble) * (y.astype(np.longdouble) - np.longdouble(ybar)) ** 2))

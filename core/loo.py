@@ -13,8 +13,9 @@ so every lambda costs O(n d) once M is formed (O(n d^2) per degree). The score i
 the weighted mean of squared LOO residuals, sum w e_(i)^2 / sum w (each row is its
 own fold; with unit weights the plain mean).
 
-The shortcut holds for penalties that keep the fit linear in y (ridge); the
-lasso and elastic net, repeats, groups and explicit folds are refused
+The shortcut holds for penalties that keep the fit linear in y (ridge and
+curvature: the same formula with that penalty's filter); the lasso and elastic
+net, repeats, groups and explicit folds are refused
 (``core.params.combination``), never silently replaced.
 """
 
@@ -39,10 +40,10 @@ class LooEngine(ScoringEngine):
     ``moments`` has two cells: the training rows and the sealed rows.
     """
 
-    def __init__(self, moments, plan: FoldPlan, x, y, w, *, intercept: bool = True):
+    def __init__(self, moments, plan: FoldPlan, x, y, w, *, intercept: bool = True, penalty: str = "ridge"):
         n_test = int(moments.counts[1]) if moments.n_cells > 1 else 0
         super().__init__(moments, plan, moments.gram[0], moments.gram[1] if n_test else None,
-                         penalty="ridge", mix=0.0, intercept=intercept,
+                         penalty=penalty, mix=0.0, intercept=intercept,
                          n_train=int(moments.counts[0]), n_test=n_test)
         self.x, self.y, self.w = x, y, w
         self.P = legendre_columns(moments.domain.map(x), moments.max_degree)
@@ -53,14 +54,15 @@ class LooEngine(ScoringEngine):
         return np.ones(self.x.size, dtype=np.int64)
 
     def with_penalty(self, penalty: str, mix: float = 0.5) -> "LooEngine":
-        combination(penalty=penalty, mix=mix, folds="loo")    # refuses anything but ridge
-        return self
+        """The same rows scored under another quadratic penalty (the lasso and elastic net are refused)."""
+        combination(penalty=penalty, mix=mix, folds="loo")
+        return LooEngine(self.moments, self.plan, self.x, self.y, self.w, intercept=self.intercept, penalty=penalty)
 
     def _leverage_factors(self, degree: int) -> np.ndarray:
         M = self._M.get(degree)
         if M is None:
             sv = self.full
-            f = sv.factor(degree)
+            f = sv.factor(degree, self.penalty)
             if f.R is None:
                 raise DataError(message(f"Leave-one-out at degree {degree}",
                                         f"at least {degree + 1} distinct x values in the training rows", "fewer",
@@ -84,7 +86,7 @@ class LooEngine(ScoringEngine):
         theta = sv.raw(self._full(degree, lams)[0])                 # (nl, d+1), raw response
         e = self.y[:, None] - self.P[:, :degree + 1] @ theta.T     # (n, nl)
         M = self._leverage_factors(degree)
-        h = (M * M) @ ridge_filter(sv.factor(degree).s ** 2, lams).T
+        h = (M * M) @ ridge_filter(sv.factor(degree, self.penalty).s2, lams).T
         if self.intercept:
             h = h + 1.0 / sv.W
         h = self.w[:, None] * h
@@ -95,7 +97,7 @@ class LooEngine(ScoringEngine):
 
 
 def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max_degree: int,
-                     intercept: bool = True) -> LooEngine:
+                     intercept: bool = True, penalty: str = "ridge") -> LooEngine:
     """Leave-one-out engine over the rows outside the sealed test set (inputs trusted)."""
     train = ~test_mask
     labels = np.where(train, 0, 1)[None, :].astype(np.int32)
@@ -107,4 +109,4 @@ def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max
     loo_labels[0, train] = np.arange(n)
     loo_plan = FoldPlan("loo", n, 1, seed, loo_labels, test_mask, test_fraction)
     wt = np.ones(n) if w is None else w[train]
-    return LooEngine(mom, loo_plan, x[train], y[train], wt, intercept=intercept)
+    return LooEngine(mom, loo_plan, x[train], y[train], wt, intercept=intercept, penalty=penalty)

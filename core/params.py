@@ -20,7 +20,7 @@ from .errors import ParameterError, message
 
 __all__ = ["check", "combination", "PENALTIES", "RULES"]
 
-PENALTIES = ("ridge", "lasso", "elastic")
+PENALTIES = ("ridge", "curvature", "lasso", "elastic")
 
 
 def _is_int(v) -> bool:
@@ -185,22 +185,22 @@ def combination(*, penalty: str = "ridge", mix: float = 0.5, folds=None, repeats
     in y and has no folds to repeat, group or give explicitly.
     """
     penalty = check(penalty=penalty).penalty
-    share = {"ridge": 0.0, "lasso": 1.0}.get(penalty)
+    share = {"ridge": 0.0, "curvature": 0.0, "lasso": 1.0}.get(penalty)
     if share is None:
         share = check(mix=mix).mix
     if isinstance(folds, str):
         if folds != "loo":
             raise ParameterError(message("Parameter 'folds'", "an integer k or 'loo'", repr(folds)))
-        clash = [name for name, bad in (("penalty='%s'" % penalty, penalty != "ridge"),
+        clash = [name for name, bad in (("penalty='%s'" % penalty, penalty not in ("ridge", "curvature")),
                                         (f"repeats={repeats}", repeats != 1),
                                         ("groups", groups is not None),
                                         ("fold_ids", fold_ids is not None)) if bad]
         if clash:
             raise ParameterError(message(
-                "Leave-one-out (folds='loo')", "the ridge penalty with single rows as folds",
+                "Leave-one-out (folds='loo')", "a ridge or curvature penalty with single rows as folds",
                 ", ".join(clash),
-                "Leave-one-out uses the hat-matrix shortcut, which holds for ridge only and scores "
-                "each row alone; use k-fold cross-validation for these options"))
+                "Leave-one-out uses the hat-matrix shortcut, which holds for penalties that keep the fit "
+                "linear in y and scores each row alone; use k-fold cross-validation for these options"))
     elif folds is not None and fold_ids is None:
         check(folds=folds)
     return share

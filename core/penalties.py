@@ -1,8 +1,18 @@
-"""Penalties on the statistics: the ridge filter, and the lasso and elastic net by exact solvers.
+"""Penalties on the statistics: ridge and curvature filters, and the lasso and elastic net.
 
 Ridge: on the standardized design A = U S V' (``core.solve``) the penalized fit
 keeps each singular component scaled by the filter factor s^2 / (s^2 + lambda)
 (``ridge_filter``; Hastie, Tibshirani & Friedman, ESL sec. 3.4.1).
+
+Curvature: lambda times the integral over the mapped range t in [-1, 1] of f''(t)^2,
+a roughness penalty (Green & Silverman, Nonparametric Regression and Generalized
+Linear Models, 1994, ch. 2; Eilers & Marx 1996, Stat. Sci. 11, 89-121, for its
+discrete analogue). For f = sum theta_j P_j(t) it is theta' Omega theta with
+Omega_jk = integral P_j'' P_k'' dt (``curvature_matrix``): zero in the rows and
+columns of P_0 and P_1, so constants and straight lines are free and lambda -> inf
+leaves the least-squares straight line. ``core.solve`` turns it into the same
+filter form as ridge, with factors 1 / (1 + lambda mu) for the eigenvalues mu of
+the penalty in the data's own orthonormal coordinates.
 
 Lasso and elastic net, by coordinate descent (covariance updates) and an exact active-set method.
 
@@ -40,18 +50,42 @@ from scipy.linalg import solve_triangular
 
 from .errors import NumericalWarning
 
-__all__ = ["ridge_filter", "coordinate_descent", "active_set", "penalized_coefficients", "MAX_CONDITION"]
+__all__ = ["ridge_filter", "curvature_matrix", "coordinate_descent", "active_set", "penalized_coefficients",
+           "MAX_CONDITION", "QUADRATIC"]
+
+QUADRATIC = ("ridge", "curvature")      # penalties whose fit is linear in y (filters, hat matrix)
 
 
 def ridge_filter(s2: np.ndarray, lams: np.ndarray) -> np.ndarray:
-    """Filter factors s^2 / (s^2 + lambda), shape (..., len(lams), len(s2)); 0 where s = 0.
+    """Filter factors s^2 / (s^2 + lambda), shape (..., len(lams), len(s2)); 0 where s = 0,
+    1 where s = inf (a direction the penalty leaves free).
 
     ``s2`` may carry leading batch axes (folds): shape (..., d) gives (..., nl, d).
     """
     s2 = np.asarray(s2, dtype=float)[..., None, :]
     lams = np.asarray(lams, dtype=float)[:, None]
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(s2 > 0, s2 / (s2 + lams), 0.0)
+        out = np.where(s2 > 0, s2 / (s2 + lams), 0.0)
+    return np.where(np.isinf(s2), 1.0, out)
+
+
+def curvature_matrix(degree: int, a: float = -1.0, b: float = 1.0, scale: float = 1.0) -> np.ndarray:
+    """Omega of shape (degree + 1, degree + 1): Omega_jk = scale * integral_a^b P_j''(s) P_k''(s) ds.
+
+    P_j'' has degree j - 2, so Gauss-Legendre quadrature with degree + 1 nodes on [a, b]
+    integrates every product exactly. The default is the whole mapped range [-1, 1];
+    another interval and a scale express the same integral in other coordinates.
+    """
+    n = degree + 1
+    nodes, weights = np.polynomial.legendre.leggauss(max(n, 2))
+    s = 0.5 * (b - a) * nodes + 0.5 * (a + b)
+    d2 = np.empty((n, s.size))
+    for j in range(n):
+        c = np.zeros(n)
+        c[j] = 1.0
+        d2[j] = np.polynomial.legendre.legval(s, np.polynomial.legendre.legder(c, 2)) if j >= 2 else 0.0
+    m = scale * 0.5 * (b - a) * (d2 * weights) @ d2.T
+    return 0.5 * (m + m.T)
 
 
 def coordinate_descent(G, c, lam, mix, *, tol=1e-13, max_sweeps=20000):

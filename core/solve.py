@@ -27,6 +27,7 @@ Inputs are trusted: degrees and lambdas are validated at the public entry points
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import warnings
 from dataclasses import dataclass
@@ -38,9 +39,17 @@ from .basis import Domain, legendre_columns, power_in_legendre
 from .curve import Curve
 from .errors import NumericalWarning, ParameterError, message
 from .moments import unshift
-from .penalties import penalized_coefficients, ridge_filter
+from .penalties import curvature_matrix, ridge_filter
 
-__all__ = ["FoldSolver", "FoldBatch", "DegreeFactor", "solve_sets"]
+__all__ = ["FoldSolver", "DegreeFactor"]
+
+
+def _strengths(mu: np.ndarray) -> np.ndarray:
+    """s2 = 1 / mu for penalty eigenvalues mu; inf (unpenalized) where mu is zero to rounding."""
+    mu = np.asarray(mu, dtype=float)
+    tiny = 1e-12 * max(float(np.abs(mu).max(initial=0.0)), 1e-300)
+    with np.errstate(divide="ignore"):
+        return np.where(mu > tiny, 1.0 / np.where(mu > tiny, mu, 1.0), np.inf)
 
 _RANK_TOL = 1e-11
 
@@ -71,11 +80,16 @@ def _chol_rank(G: np.ndarray) -> tuple[np.ndarray, int]:
 
 @dataclass(frozen=True)
 class DegreeFactor:
-    """Per-degree factorization of one training set: everything needed for any lambda.
+    """Per-degree factorization of one training set under one quadratic penalty.
 
-    ``R`` is None on the rank-deficient (eigen) path; ``exact0`` is the lambda = 0
-    solution in working coordinates there too (None when not unique);
-    ``RiU`` = R^-1 U maps filtered components to coefficients.
+    The penalized fit is ``R^-1 U diag(f) U' q`` with filter factors
+    f = s2 / (s2 + lambda) (``core.penalties.ridge_filter``): for ridge, s2 are the
+    squared singular values s^2 of the standardized design; for curvature, s2 = 1 / mu
+    with mu the penalty's eigenvalues in the data's orthonormal coordinates (s2 = inf
+    for the free constant and straight-line directions). ``R`` is None on the
+    rank-deficient path; ``exact0`` is the lambda = 0 solution in working coordinates
+    (None when not unique); ``RiU`` = R^-1 U maps filtered components to coefficients.
+    ``K``, ``s``, ``Vt`` are the standardized design's (ridge, lasso and elastic net use them).
     """
     R: np.ndarray | None
     K: np.ndarray
@@ -86,6 +100,8 @@ class DegreeFactor:
     q: np.ndarray
     exact0: np.ndarray | None
     RiU: np.ndarray | None
+    s2: np.ndarray | None = None
+    penalty: str = "ridge"
 
 
 class FoldSolver:
@@ -144,8 +160,9 @@ class FoldSolver:
         self.Rinv = solve_triangular(self.L[:r, :r].T, np.eye(r), check_finite=False) if r else np.zeros((0, 0))
         self.qfull = self.Rinv.T @ self.g[:r]
         self.nfull = self.Rinv.T @ self.p0[:r] if not intercept else None
-        self._cache: dict[int, DegreeFactor] = {}
+        self._cache: dict[tuple, DegreeFactor] = {}
         self._warned = False
+        self._omega = None
 
     # --- coordinates -----------------------------------------------------
     def working(self, M: np.ndarray) -> np.ndarray:
@@ -187,10 +204,22 @@ class FoldSolver:
         return self.T[rows, 1:degree + 1] / self.sigma[:degree]
 
     # --- factorization -----------------------------------------------------
-    def factor(self, degree: int) -> DegreeFactor:
-        """The per-degree factorization (cached)."""
-        got = self._cache.get(degree)
+    def penalty_matrix(self, degree: int) -> np.ndarray:
+        """W * Omega in working coordinates (rows of P_1..P_d with an intercept, P_0..P_d without):
+        the curvature penalty integral over the mapped range, weighted like the data term."""
+        if self._omega is None:
+            self._omega = curvature_matrix(self.D)
+        rows = slice(1, degree + 1) if self.intercept else slice(0, degree + 1)
+        return self.W * self._omega[rows, rows]
+
+    def factor(self, degree: int, penalty: str = "ridge") -> DegreeFactor:
+        """The per-degree factorization under a quadratic penalty (cached)."""
+        got = self._cache.get((degree, penalty))
         if got is not None:
+            return got
+        if penalty == "curvature":
+            got = self._curvature_factor(degree)
+            self._cache[(degree, penalty)] = got
             return got
         n = self.dim(degree)
         sig = self.sigma[:degree]
@@ -217,9 +246,36 @@ class FoldSolver:
         else:
             U, s, Vt = np.zeros((A.shape[0], 0)), np.zeros(0), np.zeros((0, 0))
         RiU = self.Rinv[:n, :n] @ U if (R is not None and degree) else None
-        got = DegreeFactor(R, K, U, s, Vt, U.T @ q, q, exact0, RiU)
-        self._cache[degree] = got
+        got = DegreeFactor(R, K, U, s, Vt, U.T @ q, q, exact0, RiU, s ** 2, "ridge")
+        self._cache[(degree, "ridge")] = got
         return got
+
+    def free_basis(self, degree: int) -> np.ndarray:
+        """Orthonormal basis (n, m) of the working coordinates z = R theta a fit may use:
+        everything with an intercept; the directions orthogonal to R^-T P(t0) through the origin."""
+        n = self.dim(degree)
+        if self.intercept or degree == 0:
+            return np.eye(n)
+        nv = self.nfull[:n]
+        Q, _ = np.linalg.qr(np.column_stack([nv, np.eye(n)]))
+        return Q[:, 1:n]
+
+    def _curvature_factor(self, degree: int) -> DegreeFactor:
+        ridge = self.factor(degree)          # the standardized design (for the lasso-style fields)
+        n = self.dim(degree)
+        if degree == 0:                      # a constant: nothing to penalize
+            return dataclasses.replace(ridge, penalty="curvature")
+        if ridge.R is None:
+            return DegreeFactor(None, ridge.K, ridge.U, ridge.s, ridge.Vt, ridge.Uq, ridge.q, ridge.exact0,
+                                None, None, "curvature")
+        Ri = self.Rinv[:n, :n]
+        B = self.free_basis(degree)
+        mu, E = np.linalg.eigh(B.T @ (Ri.T @ self.penalty_matrix(degree) @ Ri) @ B)
+        U = B @ E
+        s2 = _strengths(mu)
+        q = self.qfull[:n]
+        return DegreeFactor(ridge.R, ridge.K, U, ridge.s, ridge.Vt, U.T @ q, q, ridge.exact0, Ri @ U, s2,
+                            "curvature")
 
     def exact_solution(self, degree: int, q: np.ndarray) -> np.ndarray:
         """The lambda = 0 solution: R^-1 q, or its projection for through-origin models."""
@@ -247,14 +303,16 @@ class FoldSolver:
         """Singular values of the standardized design (their squares are X'WX's eigenvalues)."""
         return self.factor(degree).s.copy()
 
-    def coefficients(self, degree: int, lams: np.ndarray) -> np.ndarray:
-        """Ridge Legendre coefficients (working coordinates), shape (len(lams), degree + 1)."""
+    def coefficients(self, degree: int, lams: np.ndarray, penalty: str = "ridge") -> np.ndarray:
+        """Penalized Legendre coefficients (working coordinates), shape (len(lams), degree + 1)."""
         lams = np.asarray(lams, dtype=float)
-        f = self.factor(degree)
+        f = self.factor(degree, penalty)
         n = self.dim(degree)
         if n == 0 or degree == 0:
             return self.assemble(np.zeros((lams.size, 0)), degree)
-        filt = ridge_filter(f.s ** 2, lams)
+        if f.s2 is None:                              # curvature on rank-deficient rows
+            return self.assemble(self._curvature_direct(degree, lams)[0], degree)
+        filt = ridge_filter(f.s2, lams)
         if f.R is not None:
             theta_w = (filt * f.Uq) @ f.RiU.T                     # (nl, n)
             zero = lams == 0
@@ -266,10 +324,30 @@ class FoldSolver:
             theta_w = b @ f.K.T
         return self.assemble(theta_w, degree)
 
-    def effective_df(self, degree: int, lams: np.ndarray) -> np.ndarray:
-        """sum s_j^2 / (s_j^2 + lambda) (ESL eq. 3.50), plus one for the intercept."""
+    def effective_df(self, degree: int, lams: np.ndarray, penalty: str = "ridge") -> np.ndarray:
+        """Trace of the smoother: sum of the filter factors (ESL eq. 3.50 for ridge), plus one
+        for the intercept."""
+        f = self.factor(degree, penalty)
+        one = 1.0 if self.intercept else 0.0
+        if f.s2 is None and degree:
+            return self._curvature_direct(degree, np.asarray(lams, dtype=float))[1] + one
+        return ridge_filter(f.s2 if f.s2 is not None else f.s ** 2, lams).sum(axis=-1) + one
+
+    def _curvature_direct(self, degree, lams: np.ndarray):
+        """Curvature fits on rows with too few distinct x for an unpenalized fit, one lambda at a time:
+        minimise over standardized power coefficients b (theta = K b) ||.||_G^2 + lambda b'K'(W Omega)K b.
+        Returns (working coefficients (nl, n), effective df without the intercept (nl,))."""
+        degree = int(degree)
         f = self.factor(degree)
-        return ridge_filter(f.s ** 2, lams).sum(axis=-1) + (1.0 if self.intercept else 0.0)
+        n = self.dim(degree)
+        G, g, K = self.G[:n, :n], self.g[:n], f.K
+        A, Pk, c = K.T @ G @ K, K.T @ self.penalty_matrix(degree) @ K, K.T @ g
+        theta, edf = np.zeros((lams.size, n)), np.zeros(lams.size)
+        for i, lam in enumerate(lams.tolist()):
+            H = np.linalg.pinv(A + lam * Pk, hermitian=True)
+            theta[i] = K @ (H @ c)
+            edf[i] = np.trace(H @ A)
+        return theta, edf
 
     @staticmethod
     def sse(M: np.ndarray, theta: np.ndarray) -> np.ndarray:
@@ -283,98 +361,3 @@ class FoldSolver:
         g = M[:n, -1]
         quad = np.sum((theta @ G) * theta, axis=1)
         return np.maximum(M[-1, -1] - 2.0 * (theta @ g) + quad, 0.0)
-
-
-class FoldBatch:
-    """The same degree solved for many training sets at once (stacked arrays, no Python loop).
-
-    Solvers on the rank-deficient path are solved one by one and filled in.
-    """
-
-    def __init__(self, solvers: list[FoldSolver], degree: int):
-        self.solvers = solvers
-        self.degree = degree
-        self.intercept = solvers[0].intercept
-        self.n = n = solvers[0].dim(degree)
-        self.RiU = self.Uq = self.s2 = self.exact0 = None
-        self.slow = [i for i, sv in enumerate(solvers) if sv.rank < n]
-        for i in self.slow:
-            solvers[i].factor(degree)      # warns once, caches the fallback
-        if n and degree:
-            # rank-deficient sets borrow a sound one's shapes here and are overwritten later
-            donor = next((sv for sv in solvers if sv.rank >= n), None)
-            fast = [sv if sv.rank >= n else donor for sv in solvers]
-            if donor is None:                    # every set is rank deficient
-                self.slow = list(range(len(solvers)))
-            else:
-                if any(np.any(sv.sigma[:degree] <= 0) for sv in fast):
-                    raise ParameterError(message("x in the training rows", "at least two distinct x values", "one"))
-                R = np.stack([sv.L[:n, :n].T for sv in fast])
-                Ri = np.stack([sv.Rinv[:n, :n] for sv in fast])
-                K = np.stack([sv.power_map(degree) for sv in fast])
-                q = np.stack([sv.qfull[:n] for sv in fast])
-                U, sv_, _ = np.linalg.svd(np.matmul(R, K), full_matrices=False)
-                self.RiU = np.matmul(Ri, U)
-                self.Uq = np.matmul(np.swapaxes(U, 1, 2), q[:, :, None])[..., 0]
-                self.s2 = sv_ ** 2
-                self.exact0 = np.stack([sv.exact_solution(degree, qq) for sv, qq in zip(fast, q)])
-        self.mean = np.stack([sv.mean[1:degree + 1] for sv in solvers])
-        self.ycw = np.array([sv.response_mean for sv in solvers])
-
-    def coefficients(self, lams: np.ndarray) -> np.ndarray:
-        """Legendre coefficients in working coordinates, shape (sets, len(lams), degree + 1)."""
-        F, d = len(self.solvers), self.degree
-        out = np.zeros((F, lams.size, d + 1))
-        if d == 0 or self.n == 0:
-            if self.intercept:
-                out[:, :, 0] = self.ycw[:, None]
-            return out
-        if self.RiU is None:
-            for i in range(F):
-                out[i] = self.solvers[i].coefficients(d, lams)
-            return out
-        filt = ridge_filter(self.s2, lams)                              # (F, nl, n)
-        theta_w = np.matmul(filt * self.Uq[:, None, :], np.swapaxes(self.RiU, 1, 2))
-        zero = lams == 0
-        if zero.any():
-            theta_w[:, zero, :] = self.exact0[:, None, :]
-        if self.intercept:
-            out[:, :, 1:] = theta_w
-            out[:, :, 0] = self.ycw[:, None] - np.matmul(theta_w, self.mean[:, :, None])[..., 0]
-        else:
-            out[:] = theta_w
-        for i in self.slow:
-            out[i] = self.solvers[i].coefficients(d, lams)
-        return out
-
-    def effective_df(self, lams: np.ndarray) -> np.ndarray:
-        """df(lambda) of every set, shape (sets, len(lams))."""
-        if self.s2 is None:
-            return np.stack([sv.effective_df(self.degree, lams) for sv in self.solvers])
-        out = ridge_filter(self.s2, lams).sum(axis=-1) + (1.0 if self.intercept else 0.0)
-        for i in self.slow:
-            out[i] = self.solvers[i].effective_df(self.degree, lams)
-        return out
-
-    @staticmethod
-    def sse(M: np.ndarray, theta: np.ndarray) -> np.ndarray:
-        """Weighted SSE per set and lambda: M (sets, p, p) working stats, theta (sets, nl, n)."""
-        n = theta.shape[2]
-        G = M[:, :n, :n]
-        g = M[:, :n, -1]
-        quad = np.sum(np.matmul(theta, G) * theta, axis=2)
-        lin = np.sum(theta * g[:, None, :], axis=2)
-        return np.maximum(M[:, -1, -1][:, None] - 2.0 * lin + quad, 0.0)
-
-
-def solve_sets(solvers: list[FoldSolver], degree: int, lams: np.ndarray, penalty: str = "ridge",
-               mix: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
-    """Working coefficients (S, nl, d + 1) and effective df (S, nl) of several training sets
-    under one penalty: the one place a penalty name turns into a solver."""
-    if penalty == "ridge":
-        if len(solvers) == 1:
-            sv = solvers[0]
-            return sv.coefficients(degree, lams)[None], sv.effective_df(degree, lams)[None]
-        batch = FoldBatch(solvers, degree)
-        return batch.coefficients(lams), batch.effective_df(lams)
-    return penalized_coefficients(solvers, degree, lams, mix)

@@ -26,7 +26,8 @@ from .errors import ParameterError, message
 from .fit import fit as _fit
 from .params import check, combination
 from .penalties import ridge_filter
-from .solve import FoldSolver, solve_sets
+from .batch import solve_sets
+from .solve import FoldSolver
 from .validate import check_xyw
 
 __all__ = ["bootstrap_curves", "bootstrap_band", "bias_variance", "bias_variance_from_sets", "BiasVariance"]

@@ -23,7 +23,7 @@ from core.moments import accumulate
 
 DEGREES = range(0, 7)
 LAMS = np.array([0.0, 1e-4, 1e-2, 1.0, 30.0])
-PENALTIES = [("ridge", 0.5), ("lasso", 0.5), ("elastic", 0.4)]
+PENALTIES = [("ridge", 0.5), ("curvature", 0.5), ("lasso", 0.5), ("elastic", 0.4)]
 N = 240
 
 
@@ -55,7 +55,7 @@ def assert_contract(engine, penalty, mix):
                  "max_degree", "weighted"):
         assert hasattr(engine, name), name
     assert engine.penalty == penalty
-    assert engine.mix == {"ridge": 0.0, "lasso": 1.0}.get(penalty, mix)
+    assert engine.mix == {"ridge": 0.0, "curvature": 0.0, "lasso": 1.0}.get(penalty, mix)
     cv, tr = engine.scores(3, LAMS)
     assert cv.shape == tr.shape == (engine.n_folds, LAMS.size)
     mean, se, trm = engine.cv_summary(3, LAMS)
@@ -199,7 +199,7 @@ def test_dask_engine_keeps_the_contract(rows, tmp_path):
                                        dashboard_address=None, processes=True)
     client = distributed.Client(cluster)
     try:
-        for penalty, mix in PENALTIES[:2]:
+        for penalty, mix in (PENALTIES[0], PENALTIES[2]):
             e, refs = partitioned_pair(rows, penalty, mix, tmp_path, engine="dask", client=client)
             assert_contract(e, penalty, mix)
             assert_same_surface(surface_of(e), surface_of(refs[0]))
@@ -231,7 +231,7 @@ def test_leave_one_out_keeps_the_contract(rows):
 def test_leave_one_out_refuses_what_it_cannot_do(rows, kwargs, text):
     """LOO with an L1 penalty, repeats, explicit folds or groups is refused by name (never ridge LOO instead)."""
     x, y, w = rows
-    with pytest.raises(ParameterError, match=r"Leave-one-out \(folds='loo'\): expected the ridge penalty with "
+    with pytest.raises(ParameterError, match=r"Leave-one-out \(folds='loo'\): expected a ridge or curvature penalty with "
                                              r"single rows as folds, got .*" + text):
         core.sweep(x, y, DEGREES, LAMS, folds="loo", **kwargs)
     with pytest.raises(ParameterError, match="penalty='lasso'"):
