@@ -24,39 +24,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .basis import Domain, legendre_columns
+from .folds import hash_cells, hash_unit
 from .moments import Moments
 
 __all__ = ["hash_unit", "hash_cells", "BlockAccumulator", "BLOCK_ROWS"]
 
 BLOCK_ROWS = 8192
-_M1, _M2, _GOLD = np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB), np.uint64(0x9E3779B97F4A7C15)
-
-
-def _mix(z: np.ndarray) -> np.ndarray:
-    """splitmix64 finalizer on uint64 arrays (wrapping arithmetic)."""
-    with np.errstate(over="ignore"):
-        z = z + _GOLD
-        z = (z ^ (z >> np.uint64(30))) * _M1
-        z = (z ^ (z >> np.uint64(27))) * _M2
-        return z ^ (z >> np.uint64(31))
-
-
-def hash_unit(index: np.ndarray, seed: int, stream: int) -> np.ndarray:
-    """Uniform draws in [0, 1) that depend only on (row index, seed, stream)."""
-    key = _mix(np.array([seed * 1_000_003 + stream * 7_919 + 12_345], dtype=np.uint64))[0]
-    z = _mix(np.asarray(index, dtype=np.uint64) ^ key)
-    return (z >> np.uint64(11)).astype(np.float64) * (1.0 / 9007199254740992.0)
-
-
-def hash_cells(index: np.ndarray, *, seed: int, k: int, repeats: int, test_fraction: float) -> np.ndarray:
-    """Cell labels of shape (repeats, m): ``r * k + fold``; sealed rows -> ``R * k`` (repeat 0), -1 after."""
-    sealed = hash_unit(index, seed, 0) < test_fraction
-    labels = np.empty((repeats, len(index)), dtype=np.int32)
-    for r in range(repeats):
-        fold = np.minimum((hash_unit(index, seed, 1 + r) * k).astype(np.int32), k - 1)
-        labels[r] = r * k + fold
-        labels[r, sealed] = repeats * k if r == 0 else -1
-    return labels
 
 
 @dataclass

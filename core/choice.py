@@ -208,7 +208,10 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
         x = np.asarray(x, dtype=float)[train]
         y = np.asarray(y, dtype=float)[train]
         w = None if weights is None else np.asarray(weights, dtype=float)[train]
-        f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept, penalty=eng.penalty, mix=eng.mix)
+        # the curvature penalty integrates over the sweep's range: refit with the sweep's domain
+        dom = eng.domain if eng.penalty == "curvature" else None
+        f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept, penalty=eng.penalty, mix=eng.mix,
+                 domain=dom)
         rows, xr = int(x.size), [float(x.min()), float(x.max())]
     m, se, _ = eng.cv_summary(degree, [lam])
     info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},

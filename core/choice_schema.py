@@ -57,7 +57,7 @@ def schema() -> dict:
     square = {"type": "array", "items": {"type": "array", "items": NUMBER}}
     model = closed({
         "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
-        "penalty": {"enum": ["ridge", "lasso", "elastic"]}, "mix": {"type": "number", "minimum": 0, "maximum": 1},
+        "penalty": {"enum": ["ridge", "curvature", "lasso", "elastic"]}, "mix": {"type": "number", "minimum": 0, "maximum": 1},
         "intercept": {"type": "boolean"},
         "weighting": closed({"column": TEXT_OR_NULL, "kind": {"enum": ["relative", "uncertainty", None]}}),
         "reduced_chi_square": NUMBER_OR_NULL,

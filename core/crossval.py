@@ -26,7 +26,7 @@ __all__ = ["build_engine", "sweep"]
 
 def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int = 1, groups=None,
                  fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
-                 intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> ScoringEngine:
+                 intercept: bool = True, penalty: str = "ridge", mix: float = 0.5, row_keys=None) -> ScoringEngine:
     """Assign folds and run the one pass; see ``sweep`` for the parameters.
 
     The basis domain is the range of all rows (a choice of coordinates only:
@@ -39,7 +39,10 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
     require_spread(x)
     wt = None if weights is None else w
     if isinstance(folds, str):     # "loo", checked above
-        mask = sealed_mask(x.size, p.test_fraction, p.seed)
+        keys = None if row_keys is None else np.asarray(row_keys)
+        if keys is not None and keys.shape != x.shape:
+            raise DataError(message("Row keys", f"{x.size} values (one per row)", keys.shape))
+        mask = sealed_mask(x.size, p.test_fraction, p.seed, keys=keys)
         n_train = int(x.size - mask.sum())
         if n_train < p.max_degree + 2:
             raise DataError(message("Rows for leave-one-out", f"at least degree + 2 = {p.max_degree + 2} rows "
@@ -48,7 +51,7 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
         return build_loo_engine(x, y, wt, mask, seed=p.seed, test_fraction=p.test_fraction,
                                 max_degree=p.max_degree, intercept=p.intercept, penalty=penalty)
     plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
-                     seed=p.seed, test_fraction=p.test_fraction)
+                     seed=p.seed, test_fraction=p.test_fraction, row_keys=row_keys)
     labels = cell_labels(plan, p.max_degree)
     domain = Domain.from_range(x.min(), x.max())
     mom = accumulate(x, y, labels=labels, n_cells=plan.repeats * plan.k + 1, domain=domain,
@@ -56,9 +59,9 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
     return engine_from_moments(mom, plan, penalty=penalty, mix=mix, intercept=p.intercept)
 
 
-def sweep(x, y, degrees, lambdas, *, folds: int | str = 10, repeats: int = 1, groups=None,
+def sweep(x, y, degrees, lambdas=None, *, folds: int | str = 10, repeats: int = 1, groups=None,
           fold_ids=None, seed: int = 0, weights=None, test_fraction: float = 0.0,
-          intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> Surface:
+          intercept: bool = True, penalty: str = "ridge", mix: float = 0.5, row_keys=None) -> Surface:
     """Cross-validate every degree and lambda from one pass over the rows.
 
     Parameters
@@ -66,8 +69,9 @@ def sweep(x, y, degrees, lambdas, *, folds: int | str = 10, repeats: int = 1, gr
     x, y : array_like of shape (n,)
     degrees : iterable of int
         Degrees 0..30 to score.
-    lambdas : array_like
-        Penalties >= 0 (0 = least squares).
+    lambdas : array_like, optional
+        Penalties >= 0 (0 = least squares); default a grid scaled to the data and the penalty
+        (``core.select.default_lambdas``).
     folds : int or "loo"
         k (default 10); ignored with ``fold_ids``. ``"loo"`` scores leave-one-out through
         the hat matrix (``core.loo``: one standardization for all rows; ridge only, and
@@ -81,7 +85,11 @@ def sweep(x, y, degrees, lambdas, *, folds: int | str = 10, repeats: int = 1, gr
     seed : int
     weights : array_like of shape (n,), optional
     test_fraction : float
-        Rows sealed away before folding (scored only by ``Surface.reveal_test``).
+        Share of rows sealed away before folding (scored only by ``Surface.reveal_test``);
+        each row is sealed by a hash of its key and the seed (``core.folds``).
+    row_keys : array_like of shape (n,), optional
+        Each row's key for the sealed test (default 0..n-1): spreadsheet row numbers keep
+        every other row's membership when a row is excluded.
     intercept : bool
     penalty : {"ridge", "curvature", "lasso", "elastic"}
         Ridge, lasso and elastic net penalize the standardized power coefficients;
@@ -94,8 +102,8 @@ def sweep(x, y, degrees, lambdas, *, folds: int | str = 10, repeats: int = 1, gr
     -------
     Surface
     """
-    p = check(degrees=degrees, lambdas=lambdas)
+    p = check(degrees=degrees, **({} if lambdas is None else {"lambdas": lambdas}))
     engine = build_engine(x, y, max_degree=int(p.degrees.max()), folds=folds, repeats=repeats, groups=groups,
                           fold_ids=fold_ids, seed=seed, weights=weights, test_fraction=test_fraction,
-                          intercept=intercept, penalty=penalty, mix=mix)
-    return surface_from_engine(engine, p.degrees, p.lambdas)
+                          intercept=intercept, penalty=penalty, mix=mix, row_keys=row_keys)
+    return surface_from_engine(engine, p.degrees, None if lambdas is None else p.lambdas)

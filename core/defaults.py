@@ -8,14 +8,21 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MAX_DEGREE", "DEGREES", "LAMBDA_RANGE", "LAMBDA_COUNT", "FOLDS", "REPEATS", "SEED",
+__all__ = ["MAX_DEGREE", "DEGREES", "PENALTY", "LAMBDA_PER_DECADE", "LAMBDA_MARGIN", "LAMBDA_RANGE",
+           "LAMBDA_COUNT", "FOLDS", "REPEATS", "SEED",
            "TEST_FRACTION", "STREAM_BYTES", "CHUNK_ROWS", "LEARN_SIZES", "LEARN_REPEATS",
            "BOOTSTRAP_B", "COVERAGE", "MAX_GRID", "MAX_CELLS", "lambda_grid"]
 
 MAX_DEGREE = 30                  # highest polynomial degree anywhere
 DEGREES = tuple(range(0, 16))    # degrees searched by default
-LAMBDA_RANGE = (1e-8, 1e6)       # positive part of the default lambda grid (log-spaced)
-LAMBDA_COUNT = 29                # points in that positive part; lambda = 0 is added
+PENALTY = "curvature"            # the command line's and the page's penalty (the Python API keeps ridge)
+# The default lambda grid is scaled to the data (core.select.default_lambdas): 0, then from where the
+# penalty changes every filter factor by less than 1/LAMBDA_MARGIN (negligible) to where it leaves
+# less than 1/LAMBDA_MARGIN of every penalized component, LAMBDA_PER_DECADE points per decade.
+LAMBDA_PER_DECADE = 3
+LAMBDA_MARGIN = 1e3
+LAMBDA_RANGE = (1e-8, 1e6)       # a fixed grid for statistics without a usable scale (and the lasso floor)
+LAMBDA_COUNT = 29
 FOLDS = 10
 REPEATS = 1
 SEED = 0

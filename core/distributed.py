@@ -74,8 +74,9 @@ def _plan(k, repeats, seed, test_fraction, counts) -> FoldPlan:
 
 
 def _check(degrees, lambdas, folds, repeats, seed, test_fraction, intercept, penalty, mix):
-    p = check(degrees=degrees, lambdas=lambdas, folds=folds, repeats=repeats, seed=seed,
-              test_fraction=test_fraction, intercept=intercept)
+    p = check(degrees=degrees, folds=folds, repeats=repeats, seed=seed, test_fraction=test_fraction,
+              intercept=intercept, **({} if lambdas is None else {"lambdas": lambdas}))
+    p.lambdas = None if lambdas is None else p.lambdas
     combination(penalty=penalty, mix=mix)
     return p
 
@@ -90,7 +91,7 @@ def _engine_from(acc: BlockAccumulator, p, penalty, mix):
                                intercept=p.intercept)
 
 
-def sweep_files(paths, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
+def sweep_files(paths, degrees, lambdas=None, *, x, y, weights=None, uncertainty=None, folds: int = 10,
                 repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
                 penalty: str = "ridge", mix: float = 0.5, blank_rows: str = "refuse", engine: str = "local",
                 scheduler: str | None = None, client=None, chunk_rows: int = 200_000, block_rows: int = BLOCK_ROWS,
@@ -190,7 +191,7 @@ def _client(client, scheduler):
     return Client(cluster), cluster
 
 
-def sweep_chunks(chunks, degrees, lambdas, *, domain: Domain, y_shift: float = 0.0, folds: int = 10,
+def sweep_chunks(chunks, degrees, lambdas=None, *, domain: Domain, y_shift: float = 0.0, folds: int = 10,
                  repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
                  penalty: str = "ridge", mix: float = 0.5, block_rows: int = BLOCK_ROWS, progress=None) -> Surface:
     """True streaming: rows from an iterator of (x, y[, w]) chunks with a declared domain.

@@ -3,10 +3,14 @@
 Every assignment is a deterministic function of the seed and the row order,
 documented here so a user can reproduce it without this code:
 
-* sealed test set: ``round(test_fraction * n)`` rows chosen by a permutation
-  drawn from ``numpy.random.default_rng([seed, 7])`` (whole groups when a group
-  column is given, taken in that permuted group order until the fraction is
-  reached); these rows never enter any fold.
+* sealed test set: row i is sealed when ``hash_unit(key_i, seed, 0)`` (a splitmix64
+  draw of the row's key, uniform in [0, 1)) is below ``test_fraction``. The key is
+  the row's number (its spreadsheet row when read from a file, else its index), or,
+  with a group column, a 64-bit hash of the group's label so a group is sealed whole.
+  Membership depends on nothing but the row's own key and the seed: excluding or
+  adding rows never moves another row between sealed and cross-validation. The
+  sealed count is therefore about, not exactly, ``test_fraction * n``. These rows
+  never enter any fold.
 * k-fold, repeat r: a permutation of the remaining rows from
   ``default_rng([seed, 11, r])``; the row at permuted position i goes to fold
   ``i mod k`` (fold sizes differ by at most one).
@@ -19,6 +23,7 @@ documented here so a user can reproduce it without this code:
 
 from __future__ import annotations
 
+import hashlib
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -26,7 +31,8 @@ import numpy as np
 from .errors import DataError, ParameterError, message
 from .params import check
 
-__all__ = ["FoldPlan", "make_plan", "cell_labels", "sealed_mask", "check_fold_rows"]
+__all__ = ["FoldPlan", "make_plan", "cell_labels", "sealed_mask", "check_fold_rows", "hash_unit", "hash_cells",
+           "group_keys"]
 
 
 @dataclass(frozen=True)
@@ -70,29 +76,57 @@ class FoldPlan:
                 "n_rows": self.n, "n_test": self.n_test}
 
 
-def sealed_mask(n: int, test_fraction: float, seed: int, groups=None) -> np.ndarray:
+_M1, _M2, _GOLD = np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB), np.uint64(0x9E3779B97F4A7C15)
+
+
+def _mix(z: np.ndarray) -> np.ndarray:
+    """splitmix64 finalizer on uint64 arrays (wrapping arithmetic)."""
+    with np.errstate(over="ignore"):
+        z = z + _GOLD
+        z = (z ^ (z >> np.uint64(30))) * _M1
+        z = (z ^ (z >> np.uint64(27))) * _M2
+        return z ^ (z >> np.uint64(31))
+
+
+def hash_unit(index: np.ndarray, seed: int, stream: int) -> np.ndarray:
+    """Uniform draws in [0, 1) that depend only on (row index, seed, stream)."""
+    key = _mix(np.array([(seed * 1_000_003 + stream * 7_919 + 12_345) % 2**64], dtype=np.uint64))[0]
+    z = _mix(np.asarray(index, dtype=np.uint64) ^ key)
+    return (z >> np.uint64(11)).astype(np.float64) * (1.0 / 9007199254740992.0)
+
+
+def hash_cells(index: np.ndarray, *, seed: int, k: int, repeats: int, test_fraction: float) -> np.ndarray:
+    """Cell labels of shape (repeats, m): ``r * k + fold``; sealed rows -> ``R * k`` (repeat 0), -1 after."""
+    sealed = hash_unit(index, seed, 0) < test_fraction
+    labels = np.empty((repeats, len(index)), dtype=np.int32)
+    for r in range(repeats):
+        fold = np.minimum((hash_unit(index, seed, 1 + r) * k).astype(np.int32), k - 1)
+        labels[r] = r * k + fold
+        labels[r, sealed] = repeats * k if r == 0 else -1
+    return labels
+
+
+def group_keys(groups) -> np.ndarray:
+    """A 64-bit key per row from its group's label (BLAKE2b of the label's text), shape (n,)."""
+    uniq, inv = np.unique(np.asarray(groups).astype(str), return_inverse=True)
+    keys = np.array([int.from_bytes(hashlib.blake2b(u.encode("utf-8"), digest_size=8).digest(), "little")
+                     for u in uniq.tolist()], dtype=np.uint64)
+    return keys[inv]
+
+
+def sealed_mask(n: int, test_fraction: float, seed: int, groups=None, keys=None) -> np.ndarray:
     """Which of n rows are sealed away (see module docstring); inputs trusted."""
-    mask = np.zeros(n, dtype=bool)
-    n_test = int(round(test_fraction * n))
-    if n_test == 0:
-        return mask
-    rng = np.random.default_rng([seed, 7])
-    if groups is None:
-        mask[rng.permutation(n)[:n_test]] = True
-        return mask
-    uniq, inv = np.unique(groups, return_inverse=True)
-    sizes = np.bincount(inv)
-    taken = 0
-    for g in rng.permutation(len(uniq)):
-        if taken >= n_test:
-            break
-        mask[inv == g] = True
-        taken += sizes[g]
-    return mask
+    if test_fraction <= 0:
+        return np.zeros(n, dtype=bool)
+    if groups is not None:
+        keys = group_keys(groups)
+    elif keys is None:
+        keys = np.arange(n)
+    return hash_unit(np.asarray(keys).astype(np.uint64), seed, 0) < test_fraction
 
 
 def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_ids=None,
-              seed: int = 0, test_fraction: float = 0.0) -> FoldPlan:
+              seed: int = 0, test_fraction: float = 0.0, row_keys=None, sealed=None) -> FoldPlan:
     """Assign rows to folds (and to the sealed test set).
 
     Parameters
@@ -110,7 +144,12 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
         Explicit fold of each row; its distinct values define the folds.
     seed : int
     test_fraction : float
-        Share of rows sealed away before folding.
+        Share of rows sealed away before folding (each row decided by its own key).
+    row_keys : array_like of shape (n,), optional
+        Each row's key for the sealed test (default 0..n-1); pass spreadsheet row numbers so
+        that excluding a row never moves another between sealed and cross-validation.
+    sealed : ndarray of shape (n,), bool, optional
+        The sealed mask when already decided by the same rule (a streamed file's scan).
 
     Raises
     ------
@@ -125,7 +164,11 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
         groups = np.asarray(groups)
         if groups.shape != (n,):
             raise DataError(message("Group column", f"{n} values (one per row)", groups.shape[0]))
-    test_mask = sealed_mask(n, test_fraction, seed, groups)
+    if row_keys is not None:
+        row_keys = np.asarray(row_keys)
+        if row_keys.shape != (n,):
+            raise DataError(message("Row keys", f"{n} values (one per row)", row_keys.shape))
+    test_mask = sealed_mask(n, test_fraction, seed, groups, row_keys) if sealed is None else np.asarray(sealed)
     train = np.flatnonzero(~test_mask)
     m = train.size
     labels = np.full((repeats, n), -1, dtype=np.int16)

@@ -110,15 +110,19 @@ def unshift(M: np.ndarray, y_shift: float) -> np.ndarray:
 class Accumulator:
     """Streaming accumulation of ``Moments``; feed chunks or whole arrays.
 
+    Rows are summed in canonical blocks of ``chunk`` consecutive rows, whatever sizes
+    the updates come in, so the statistics are the same bits for the same rows however
+    a file is chunked (rows of an unfinished block wait in a small buffer).
+
     Parameters
     ----------
     domain : Domain
     max_degree : int
     n_cells : int
     y_shift : float, optional
-        Defaults to the weighted mean of the first rows seen.
+        Defaults to the weighted mean of the first block's rows (the first ``chunk`` rows).
     chunk : int
-        Rows per block inside ``update`` (cache-sized).
+        Rows per block (cache-sized).
     """
 
     def __init__(self, domain: Domain, max_degree: int, n_cells: int, *,
@@ -133,6 +137,10 @@ class Accumulator:
         self._gram = np.zeros((self.n_cells, p, p))
         self._counts = np.zeros(self.n_cells, dtype=np.int64)
         self._buf = np.empty((self.chunk, p), order="F")
+        self._pending: list = []          # (x, y, w, labels) pieces of the unfinished block
+
+    def _pending_rows(self) -> int:
+        return sum(len(p[0]) for p in self._pending)
 
     def update(self, x: np.ndarray, y: np.ndarray, weights: np.ndarray | None,
                labels: np.ndarray) -> None:
@@ -140,18 +148,33 @@ class Accumulator:
         the m rows to cells (-1 = skip); a row is added once per assignment."""
         x = np.asarray(x, dtype=np.float64)
         y = np.asarray(y, dtype=np.float64)
+        w = None if weights is None else np.asarray(weights, dtype=np.float64)
         labels = np.atleast_2d(labels)
-        self.weighted = self.weighted or weights is not None
-        if self.y_shift is None:
-            head = slice(0, min(len(y), self.chunk))
-            yw = y[head] if weights is None else np.average(y[head], weights=weights[head])
-            self.y_shift = float(np.mean(yw)) if len(y) else 0.0
-        for start in range(0, len(x), self.chunk):
-            stop = min(start + self.chunk, len(x))
-            w = None if weights is None else weights[start:stop]
-            self._block(x[start:stop], y[start:stop], w, labels[:, start:stop])
+        self.weighted = self.weighted or w is not None
+        pos = 0
+        if self._pending:                        # complete the waiting block first
+            take = min(self.chunk - self._pending_rows(), len(x))
+            self._pending.append((x[:take], y[:take], None if w is None else w[:take], labels[:, :take]))
+            pos = take
+            if self._pending_rows() == self.chunk:
+                self._flush()
+        while len(x) - pos >= self.chunk:        # whole blocks straight from the input
+            stop = pos + self.chunk
+            self._block(x[pos:stop], y[pos:stop], None if w is None else w[pos:stop], labels[:, pos:stop])
+            pos = stop
+        if pos < len(x):
+            self._pending.append((x[pos:], y[pos:], None if w is None else w[pos:], labels[:, pos:]))
+
+    def _flush(self) -> None:
+        parts = self._pending
+        self._pending = []
+        w = None if parts[0][2] is None else np.concatenate([p[2] for p in parts])
+        self._block(np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts]), w,
+                    np.concatenate([p[3] for p in parts], axis=1))
 
     def _block(self, x, y, w, labels) -> None:
+        if self.y_shift is None:
+            self.y_shift = float(np.mean(y) if w is None else np.average(y, weights=w)) if len(y) else 0.0
         m = len(x)
         D = self.max_degree
         B = self._buf[:m]
@@ -176,6 +199,9 @@ class Accumulator:
                 pos += n_c
 
     def result(self) -> Moments:
+        """The statistics of every row added so far (the last, partial block included)."""
+        if self._pending:
+            self._flush()
         return Moments(self.domain, self.max_degree, float(self.y_shift or 0.0),
                        self._gram.copy(), self._counts.copy(), self.weighted)
 

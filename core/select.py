@@ -32,7 +32,8 @@ from .engine import ScoringEngine, fold_mean_se
 from .errors import DataError, ParameterError, message
 from .params import check
 
-__all__ = ["Surface", "Recommendation", "SealedTest", "surface_from_engine", "grid_choices"]
+__all__ = ["Surface", "Recommendation", "SealedTest", "surface_from_engine", "grid_choices", "default_lambdas",
+           "edge_notes"]
 
 
 def _finite(v):
@@ -216,7 +217,7 @@ def _pick(engine, rule, degree, lam, grid_lam, degrees, lams) -> Recommendation:
                           at_lam_edge)
 
 
-def surface_from_engine(engine: ScoringEngine, degrees, lambdas) -> Surface:
+def surface_from_engine(engine: ScoringEngine, degrees, lambdas=None) -> Surface:
     """The full surface and recommendations from an engine (no pass over rows).
 
     Parameters
@@ -224,9 +225,12 @@ def surface_from_engine(engine: ScoringEngine, degrees, lambdas) -> Surface:
     engine : ScoringEngine
     degrees : iterable of int
         Degrees up to ``engine.max_degree``.
-    lambdas : array_like
-        Penalties >= 0 (sorted and made unique).
+    lambdas : array_like, optional
+        Penalties >= 0 (sorted and made unique); default ``default_lambdas`` for the
+        engine's data, penalty and highest requested degree.
     """
+    if lambdas is None:
+        lambdas = default_lambdas(engine, int(check(degrees=degrees).degrees.max()))
     p = check(degrees=degrees, lambdas=lambdas)
     degrees, lams = p.degrees, p.lambdas
     if degrees.max() > engine.max_degree:
@@ -248,3 +252,58 @@ def surface_from_engine(engine: ScoringEngine, degrees, lambdas) -> Surface:
     sealed = SealedTest(engine.plan.test_fraction, engine.n_test)
     return Surface(degrees, lams, cv, se, tr, fold, edf, gcv, rec, engine.plan.to_dict(),
                    engine.n_train, engine.intercept, sealed, engine)
+
+
+def default_lambdas(engine: ScoringEngine, degree: int | None = None) -> np.ndarray:
+    """The default grid for an engine's data and penalty: 0, then log-spaced values from where the
+    penalty is negligible to where it has done all it can (``core.defaults``).
+
+    Ridge: filter factors s^2 / (s^2 + lambda) over the highest degree's standardized design, so
+    lambda runs from s_min^2 / M to M s_max^2 (M = LAMBDA_MARGIN; s_min^2 floored at 1e-16 of the
+    total weight). Curvature: factors 1 / (1 + lambda mu) over the penalty's eigenvalues mu, so from
+    1 / (M mu_max) to M / mu_min (then only the straight line is left). Lasso and elastic net: from
+    lambda_max / 10^6 to lambda_max, lambda_max = 2 max|c| / mix, above which every coefficient is 0.
+    """
+    from . import defaults
+
+    D = engine.max_degree if degree is None else int(degree)
+    M, per = defaults.LAMBDA_MARGIN, defaults.LAMBDA_PER_DECADE
+    sv = engine.full
+    lo = hi = None
+    if D >= 1 and sv.rank >= sv.dim(D):
+        if engine.penalty == "ridge":
+            s2 = sv.factor(D).s ** 2
+            lo, hi = max(s2.min(), 1e-16 * sv.W) / M, M * s2.max()
+        elif engine.penalty == "curvature":
+            s2 = sv.factor(D, "curvature").s2
+            finite = s2[np.isfinite(s2)]
+            if finite.size:
+                lo, hi = finite.min() / M, M * finite.max()
+        else:
+            f = sv.factor(D)
+            c = np.abs(f.Vt.T @ (f.s * f.Uq))
+            top = 2.0 * float(c.max()) / engine.mix if c.size and c.max() > 0 else None
+            if top:
+                lo, hi = top * 1e-6, top
+    if lo is None or not (0 < lo < hi) or not np.isfinite(hi):
+        lo, hi = defaults.LAMBDA_RANGE
+    count = int(np.clip(np.ceil(per * np.log10(hi / lo)) + 1, 2, defaults.MAX_GRID - 1))
+    return np.concatenate([[0.0], np.logspace(np.log10(lo), np.log10(hi), count)])
+
+
+def edge_notes(rec: Recommendation, surface: Surface) -> list[str]:
+    """Plain sentences for a pick at an edge of the searched grid, saying what to widen."""
+    out = []
+    lams = surface.lambdas
+    positive = lams[lams > 0]
+    if rec.degree_at_edge:
+        out.append(f"Degree {rec.degree} is the highest degree searched: a wider degree range might choose "
+                   f"differently (search up to about {min(rec.degree + 5, 30)}).")
+    if rec.lambda_at_edge and positive.size:
+        if rec.grid_lambda >= positive[-1]:
+            out.append(f"Lambda {rec.lam:.3g} is the top of the lambda grid: the penalty may want to be stronger "
+                       f"still; extend the grid above {positive[-1]:.3g}.")
+        else:
+            out.append(f"Lambda {rec.lam:.3g} is the smallest positive lambda of the grid and beats lambda = 0: "
+                       f"the best penalty may lie below it; extend the grid below {positive[0]:.3g}.")
+    return out

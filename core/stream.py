@@ -27,7 +27,7 @@ import numpy as np
 from .basis import Domain
 from .engine import engine_from_moments
 from .errors import DataError, message
-from .folds import cell_labels, make_plan
+from .folds import cell_labels, make_plan, sealed_mask
 from .moments import Accumulator
 from .params import check, combination
 from .select import Surface, surface_from_engine
@@ -53,6 +53,7 @@ class Scan:
     y_name: str
     weight_name: str | None
     notices: tuple = ()
+    sealed: np.ndarray | None = field(default=None, repr=False)   # sealed mask of the used rows, when asked
 
     @property
     def x_unit(self):
@@ -156,8 +157,12 @@ def chunk_columns(names, offset, frame, decimal, fname, blank_rows):
 
 
 def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "refuse",
-              chunk_rows: int = 500_000, require_spread: bool = True) -> Scan:
-    """First read: validate, count, x range, fingerprints (see module docstring)."""
+              chunk_rows: int = 500_000, require_spread: bool = True, sealed=None) -> Scan:
+    """First read: validate, count, x range, fingerprints (see module docstring).
+
+    ``sealed=(seed, test_fraction)`` also decides each used row's sealed membership from its
+    spreadsheet row number (``core.folds.sealed_mask``), exactly as for the rows in memory.
+    """
     path = Path(path)
     specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
     digests = {r: hashlib.sha256() for r, s in specs.items() if s is not None}
@@ -165,11 +170,14 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "
     dropped = []
     lo, hi = np.inf, -np.inf
     names = {}
+    masks = []
     for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
         xv, yv, w, keep, cols = chunk_columns(names, offset, frame, decimal, path.name, blank_rows)
         n_read += len(frame)
         n_used += xv.size
         dropped.extend((np.flatnonzero(~keep) + offset + 2).tolist())
+        if sealed is not None:
+            masks.append(sealed_mask(xv.size, sealed[1], sealed[0], keys=np.flatnonzero(keep) + offset + 2))
         if xv.size:
             lo, hi = min(lo, float(xv.min())), max(hi, float(xv.max()))
         for role, h in digests.items():
@@ -186,10 +194,10 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "
             fh.update(block)
     wname = names.get("uncertainty", names.get("weights"))
     return Scan(str(path), n_read, n_used, dropped, lo, hi, fh.hexdigest(), columns_digest(digests),
-                names["x"], names["y"], wname)
+                names["x"], names["y"], wname, (), np.concatenate(masks) if masks else None)
 
 
-def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, folds: int = 10,
+def sweep_file(path, degrees, lambdas=None, *, x, y, weights=None, uncertainty=None, folds: int = 10,
                repeats: int = 1, seed: int = 0, test_fraction: float = 0.0, intercept: bool = True,
                penalty: str = "ridge", mix: float = 0.5, blank_rows: str = "refuse", chunk_rows: int = 500_000,
                progress=None) -> tuple[Surface, Scan]:
@@ -201,13 +209,14 @@ def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, 
     ``progress(rows_done, rows_total, seconds)`` is called after every chunk of the
     statistics pass when given.
     """
-    p = check(degrees=degrees, lambdas=lambdas, folds=folds, repeats=repeats, seed=seed,
-              test_fraction=test_fraction, intercept=intercept, chunk_rows=chunk_rows)
+    p = check(degrees=degrees, folds=folds, repeats=repeats, seed=seed, test_fraction=test_fraction,
+              intercept=intercept, chunk_rows=chunk_rows, **({} if lambdas is None else {"lambdas": lambdas}))
     combination(penalty=penalty, mix=mix)
     max_degree = int(p.degrees.max())
     sc = scan_file(path, x=x, y=y, weights=weights, uncertainty=uncertainty, blank_rows=blank_rows,
-                   chunk_rows=p.chunk_rows)
-    plan = make_plan(sc.rows_used, folds=p.folds, repeats=p.repeats, seed=p.seed, test_fraction=p.test_fraction)
+                   chunk_rows=p.chunk_rows, sealed=(p.seed, p.test_fraction))
+    plan = make_plan(sc.rows_used, folds=p.folds, repeats=p.repeats, seed=p.seed, test_fraction=p.test_fraction,
+                     sealed=sc.sealed)
     labels = cell_labels(plan, max_degree)
     acc = Accumulator(Domain.from_range(sc.x_min, sc.x_max), max_degree, plan.repeats * plan.k + 1)
     specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
@@ -223,4 +232,4 @@ def sweep_file(path, degrees, lambdas, *, x, y, weights=None, uncertainty=None, 
         raise DataError(message(f"File '{Path(path).name}'", f"{sc.rows_used} rows on the second read",
                                 pos, "The file changed while it was being read"))
     engine = engine_from_moments(acc.result(), plan, penalty=penalty, mix=mix, intercept=p.intercept)
-    return surface_from_engine(engine, p.degrees, p.lambdas), sc
+    return surface_from_engine(engine, p.degrees, None if lambdas is None else p.lambdas), sc

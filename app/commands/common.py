@@ -116,7 +116,9 @@ def add_degree_lambda(p):
 
 
 def add_penalty_args(p):
-    p.add_argument("--penalty", choices=["ridge", "lasso", "elastic"], default="ridge")
+    p.add_argument("--penalty", choices=["curvature", "ridge", "lasso", "elastic"], default=defaults.PENALTY,
+                   help="curvature (default): penalize the curve's bending, never its slope; ridge, lasso, "
+                        "elastic: penalize the standardized power coefficients")
     p.add_argument("--mix", type=float, default=0.5, help="elastic net: share of the L1 term")
 
 

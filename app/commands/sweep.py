@@ -26,9 +26,10 @@ from .common import (Progress, add_data_args, add_folds, add_force, add_json, ad
 def add_parser(subparsers):
     p = subparsers.add_parser("sweep", help="cross-validate a degree x lambda grid; print the recommendation")
     add_data_args(p)
-    lo, hi = defaults.LAMBDA_RANGE
     p.add_argument("--degrees", default=f"{min(defaults.DEGREES)}-{max(defaults.DEGREES)}")
-    p.add_argument("--lambdas", help=f"log grid START:STOP:COUNT (default: 0 and {lo:g}:{hi:g}:{defaults.LAMBDA_COUNT})")
+    p.add_argument("--lambdas", help="log grid START:STOP:COUNT (default: 0, then a grid scaled to the data "
+                                     "and the penalty, from where the penalty is negligible to where it has "
+                                     "done all it can)")
     p.add_argument("--with-zero", action="store_true", help="add lambda = 0 to a grid given by --lambdas")
     add_folds(p)
     p.add_argument("--loo", action="store_true", help="leave-one-out through the hat matrix instead of k-fold")
@@ -87,7 +88,7 @@ def _grid(args):
     """The swept degrees and lambdas (with 0 first under --with-zero)."""
     degrees = parse_degrees(args.degrees)
     if args.lambdas is None:
-        return degrees, defaults.lambda_grid()
+        return degrees, None
     lams = parse_grid(args.lambdas, log=True, option="--lambdas")
     if args.with_zero:
         lams = np.concatenate([[0.0], lams])
@@ -106,7 +107,7 @@ def _sweep(args, degrees, lams):
     s = core.sweep(t.x.values, t.y.values, degrees, lams, folds="loo" if args.loo else args.folds,
                    repeats=args.repeats, groups=t.groups, fold_ids=t.folds, seed=args.seed, weights=t.weights,
                    test_fraction=args.test_fraction, intercept=not args.through_origin,
-                   penalty=args.penalty, mix=args.mix)
+                   penalty=args.penalty, mix=args.mix, row_keys=t.row_numbers)
     return s, t
 
 

@@ -58,7 +58,7 @@ CASES = [
     ("too few rows per fold", {"f.csv": GOOD}, ["sweep", "{dir}/f.csv", "--x", "x", "--y", "y", "--degrees", "0-11", "--folds", "4", "--test-fraction", "0"],
      "Training rows of fold 1: expected at least degree + 1 = 12 rows, got 9. Lower the highest degree, use fewer folds or a smaller test fraction."),
     ("sealed split leaves too few rows", {"f.csv": GOOD}, ["sweep", "{dir}/f.csv", "--x", "x", "--y", "y", "--degrees", "0-6", "--folds", "3", "--test-fraction", "0.4"],
-     "Training rows of fold 1: expected at least degree + 1 = 7 rows, got 4. Lower the highest degree, use fewer folds or a smaller test fraction."),
+     "Training rows of fold 1: expected at least degree + 1 = 7 rows, got 6. Lower the highest degree, use fewer folds or a smaller test fraction."),
     ("too few distinct x for the degree", {"f.csv": "x,y\n1,2\n1,2.1\n2,3\n2,3.2\n3,5\n3,5.1\n"}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "3"],
      "Degree 3 at lambda = 0: expected at least 4 distinct x values, got 3. Lower the degree or use lambda > 0."),
     ("negative lambda", {"f.csv": GOOD}, ["fit", "{dir}/f.csv", "--x", "x", "--y", "y", "--degree", "1", "--lambda", "-1"],

@@ -111,12 +111,13 @@ def test_loo_sweep_saves_a_choice_and_refuses_statistics_up_front(tmp_path, caps
 
     choice = tmp_path / "c.json"
     code, _, _ = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--loo", "--degrees", "0-5", "--lambdas", "1e-3:1:4",
-                      "--with-zero", "--save", choice, "--pick-degree", 3, "--pick-lambda", 0.01], capsys)
+                      "--with-zero", "--penalty", "ridge", "--save", choice, "--pick-degree", 3,
+                      "--pick-lambda", 0.01], capsys)
     assert code == 0
     doc = json.loads(choice.read_text())
     jsonschema.validate(doc, SCHEMA)
     t = read_table(FURNACE, x=1, y=2)
-    ref = core.sweep(t.x.values, t.y.values, [3], [0.01], folds="loo", test_fraction=0.2)
+    ref = core.sweep(t.x.values, t.y.values, [3], [0.01], folds="loo", test_fraction=0.2, row_keys=t.row_numbers)
     assert doc["validation"]["scheme"] == "loo" and doc["validation"]["k"] == ref.n_train
     assert doc["validation"]["cv_mse"] == pytest.approx(ref.cv_mse[0, 0], rel=1e-12)
     code, _, err = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--loo", "--save", tmp_path / "c2.json",
@@ -137,8 +138,9 @@ def test_streamed_lasso_equals_in_memory_lasso(tmp_path, capsys):
     doc = json.loads(out.read_text())
     t = read_table(FURNACE, x=1, y=2)
     ref = core.sweep(t.x.values, t.y.values, range(0, 5), np.logspace(-2, 2, 5), folds=4, test_fraction=0.2,
-                     penalty="lasso")
-    ridge = core.sweep(t.x.values, t.y.values, range(0, 5), np.logspace(-2, 2, 5), folds=4, test_fraction=0.2)
+                     penalty="lasso", row_keys=t.row_numbers)
+    ridge = core.sweep(t.x.values, t.y.values, range(0, 5), np.logspace(-2, 2, 5), folds=4, test_fraction=0.2,
+                       row_keys=t.row_numbers)
     assert doc["penalty"] == "lasso"
     np.testing.assert_allclose(doc["cv_mse"], ref.cv_mse, rtol=1e-10)
     assert not np.allclose(doc["cv_mse"], ridge.cv_mse, rtol=1e-3)

@@ -119,7 +119,7 @@ def stream_pair(rows, penalty, mix, tmp_path):
     s, _ = sweep_file(p, DEGREES, LAMS, x="x", y="y", weights="w", folds=5, seed=3, test_fraction=0.2,
                       penalty=penalty, mix=mix, chunk_rows=100)
     ref = core.build_engine(x, y, max_degree=6, folds=5, seed=3, weights=w, test_fraction=0.2,
-                            penalty=penalty, mix=mix)
+                            penalty=penalty, mix=mix, row_keys=np.arange(N) + 2)     # spreadsheet rows
     return s.engine, [ref]
 
 
