@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from .basis import Domain
-from .engine import ScoringEngine, engine_from_moments
+from .engine import OwnDomain, ScoringEngine, engine_from_moments
 from .errors import DataError, message
 from .folds import cell_labels, make_plan, sealed_mask
 from .loo import build_loo_engine
@@ -21,7 +21,7 @@ from .params import check, combination
 from .select import Surface, surface_from_engine
 from .validate import check_xyw, require_spread
 
-__all__ = ["build_engine", "sweep"]
+__all__ = ["build_engine", "sweep", "own_domains"]
 
 
 def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int = 1, groups=None,
@@ -49,14 +49,20 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
                                     "outside the sealed test set", n_train,
                                     "Lower the highest degree or use a smaller test fraction"))
         return build_loo_engine(x, y, wt, mask, seed=p.seed, test_fraction=p.test_fraction,
-                                max_degree=p.max_degree, intercept=p.intercept, penalty=penalty)
+                                max_degree=p.max_degree, intercept=p.intercept, penalty=penalty,
+                                own=own_domains(x, y, wt, p.max_degree, p.intercept))
     plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
                      seed=p.seed, test_fraction=p.test_fraction, row_keys=row_keys)
     labels = cell_labels(plan, p.max_degree)
     domain = Domain.from_range(x.min(), x.max())
     mom = accumulate(x, y, labels=labels, n_cells=plan.repeats * plan.k + 1, domain=domain,
                      max_degree=p.max_degree, weights=wt)
-    return engine_from_moments(mom, plan, penalty=penalty, mix=mix, intercept=p.intercept)
+    sets = {"full": (~plan.test_mask, plan.test_mask)}
+    for r in range(plan.repeats):
+        for f in range(plan.k):
+            sets[r * plan.k + f] = ((plan.labels[r] >= 0) & (plan.labels[r] != f), plan.labels[r] == f)
+    own = own_domains(x, y, wt, p.max_degree, p.intercept, plan.k)(mom, sets)
+    return engine_from_moments(mom, plan, penalty=penalty, mix=mix, intercept=p.intercept, own=own)
 
 
 def sweep(x, y, degrees, lambdas=None, *, folds: int | str = 10, repeats: int = 1, groups=None,
@@ -107,3 +113,85 @@ def sweep(x, y, degrees, lambdas=None, *, folds: int | str = 10, repeats: int = 
                           fold_ids=fold_ids, seed=seed, weights=weights, test_fraction=test_fraction,
                           intercept=intercept, penalty=penalty, mix=mix, row_keys=row_keys)
     return surface_from_engine(engine, p.degrees, None if lambdas is None else p.lambdas)
+
+
+# A training set whose rows span less of the sweep's x range than this loses more than
+# OWN_DIGITS digits to Legendre columns of the sweep's mapped x at the highest degree
+# (their conditioning grows like (1 / span)^degree), so it is recomputed in its own coordinates.
+OWN_DIGITS = 2.0
+
+
+def own_domains(x, y, w, max_degree: int, intercept: bool = True, k: int = 1):
+    """A function (moments, sets) -> {key: OwnDomain} for in-memory rows.
+
+    ``sets`` maps a cell key (fold cell index, or "full") to (training mask, held-out mask).
+    Every set gets its count of distinct training x values; a set whose training rows span
+    too little of the sweep's range gets statistics in its own domain (see OWN_DIGITS); a set
+    whose Gram matrix is numerically rank deficient although it has enough distinct x values
+    (x crowded into a small part of the range) gets its triangular factor from a QR of its rows.
+    """
+    _, inv = np.unique(x, return_inverse=True)
+
+    def build(moments, sets) -> dict:
+        dom = moments.domain
+        out = {}
+        for key, (train, held) in sets.items():
+            if not train.any():
+                continue
+            distinct = int(np.count_nonzero(np.bincount(inv[train])))
+            lo, hi = float(x[train].min()), float(x[train].max())
+            span = (hi - lo) / (2.0 * dom.half_width)
+            narrow = hi > lo and max_degree >= 2 and max_degree * np.log10(1.0 / span) > OWN_DIGITS
+            crowded = distinct > max_degree and _gram_rank(moments, key, k, intercept) < max_degree + 1
+            if not (narrow or crowded):
+                out[key] = OwnDomain(distinct=distinct)
+                continue
+            own = Domain.from_range(lo, hi) if hi > lo else dom
+            # the sweep's curvature integral over t in [-1, 1], in the own coordinate s:
+            # s(t) = (c + h t - c_own) / h_own and d^2/dt^2 = (h / h_own)^2 d^2/ds^2
+            a = (dom.center - dom.half_width - own.center) / own.half_width
+            b = (dom.center + dom.half_width - own.center) / own.half_width
+            scale = (dom.half_width / own.half_width) ** 3
+
+            def stats(mask):
+                one = np.zeros((1, int(mask.sum())), dtype=np.int16)
+                return accumulate(x[mask], y[mask], labels=one, n_cells=1, domain=own, max_degree=max_degree,
+                                  weights=None if w is None else w[mask], y_shift=moments.y_shift).gram[0]
+
+            out[key] = OwnDomain(own, stats(train), stats(held) if held.any() else None, (a, b, scale), distinct,
+                                 _rows_factor(x[train], y[train], None if w is None else w[train], own,
+                                              max_degree, intercept, moments.y_shift))
+        return out
+    return build
+
+
+def _gram_rank(moments, key, k: int, intercept: bool) -> int:
+    """Numerical rank (plus the intercept) of a set's Legendre Gram matrix in the sweep's coordinates,
+    as the solver would see it. ``key`` is "full" (every fold of repeat 0) or a fold cell r * k + f."""
+    from .solve import FoldSolver
+
+    if key == "full":
+        S = moments.gram[:k].sum(axis=0)
+    else:
+        r = key // k
+        S = sum(moments.gram[c] for c in range(r * k, (r + 1) * k) if c != key)
+    return FoldSolver(S, moments.domain, moments.y_shift, intercept).rank + (1 if intercept else 0)
+
+
+def _rows_factor(x, y, w, domain, max_degree: int, intercept: bool, y_shift: float):
+    """(R, Q' y) of the weighted (centred, with an intercept) Legendre design of these rows."""
+    from .basis import legendre_columns
+
+    sw = np.ones_like(x) if w is None else np.sqrt(w)
+    P = legendre_columns(domain.map(x), max_degree)
+    yy = y - y_shift if intercept else y
+    if intercept:
+        W = np.sum(sw * sw)
+        mean = (sw * sw) @ P / W
+        X = (P[:, 1:] - mean[1:]) * sw[:, None]
+        r = (yy - (sw * sw) @ yy / W) * sw
+    else:
+        X, r = P * sw[:, None], yy * sw
+    Q, R = np.linalg.qr(X)
+    sign = np.where(np.diag(R) < 0, -1.0, 1.0)      # positive diagonal, as a Cholesky factor has
+    return sign[:, None] * R, sign * (Q.T @ r)

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import warnings
 from abc import ABC, abstractmethod
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -32,7 +33,36 @@ from .params import check, combination
 from .batch import FoldBatch, solve_sets
 from .solve import FoldSolver
 
-__all__ = ["ScoringEngine", "FoldEngine", "engine_from_moments", "fold_mean_se"]
+__all__ = ["ScoringEngine", "FoldEngine", "engine_from_moments", "fold_mean_se", "OwnDomain"]
+
+
+@dataclass(frozen=True)
+class OwnDomain:
+    """One training set's statistics in coordinates of its own (from the rows, in memory).
+
+    When a fold's training rows cover only a small part of the sweep's x range, Legendre
+    columns of the sweep's mapped x are nearly collinear on them and the fold's fit loses
+    digits; these statistics use the training rows' own range instead. ``train`` and
+    ``held`` (its held-out or sealed rows) are (D + 2)^2 matrices with the sweep's response
+    shift; ``window`` says where the sweep's curvature integral runs in these coordinates.
+    ``domain`` None keeps the sweep's statistics and only records ``distinct`` (the number of
+    distinct x values in the training rows, for honest messages).
+    """
+
+    domain: object = None
+    train: np.ndarray | None = None
+    held: np.ndarray | None = None
+    window: tuple | None = None
+    distinct: int | None = None
+    rows_factor: tuple | None = None     # (R, Q'y) from a QR of the rows, for crowded x
+
+
+def _solver(gram, moments, intercept, label, own: OwnDomain | None):
+    if own is not None and own.domain is not None:
+        return FoldSolver(own.train, own.domain, moments.y_shift, intercept, label, penalty_window=own.window,
+                          distinct=own.distinct, rows_factor=own.rows_factor)
+    return FoldSolver(gram, moments.domain, moments.y_shift, intercept, label,
+                      distinct=None if own is None else own.distinct)
 
 
 def fold_mean_se(cv: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -55,14 +85,18 @@ class ScoringEngine(ABC):
     """
 
     def __init__(self, moments: Moments, plan: FoldPlan, train_gram: np.ndarray, test_gram, *,
-                 penalty: str, mix: float, intercept: bool, n_train: int, n_test: int):
+                 penalty: str, mix: float, intercept: bool, n_train: int, n_test: int, own: dict | None = None):
         self.moments = moments
         self.plan = plan
         self.penalty = penalty
         self.mix = float(mix)
         self.intercept = bool(intercept)
         self.n_train, self.n_test = int(n_train), int(n_test)
-        self.full = FoldSolver(train_gram, moments.domain, moments.y_shift, intercept, label="training rows")
+        self.own = dict(own or {})
+        mine = self.own.get("full")
+        self.full = _solver(train_gram, moments, intercept, "training rows", mine)
+        if mine is not None and mine.domain is not None:
+            train_gram, test_gram = mine.train, mine.held
         self.full_stats = self.full.working(train_gram)
         self.test_stats = None if test_gram is None else self.full.working(test_gram)
         self._memo: tuple | None = None
@@ -144,7 +178,8 @@ class ScoringEngine(ABC):
 
     def with_penalty(self, penalty: str, mix: float = 0.5) -> "ScoringEngine":
         """A new engine on the same statistics with another penalty (this one is unchanged)."""
-        return engine_from_moments(self.moments, self.plan, penalty=penalty, mix=mix, intercept=self.intercept)
+        return engine_from_moments(self.moments, self.plan, penalty=penalty, mix=mix, intercept=self.intercept,
+                                   own=self.own)
 
     # ---- shared solving -----------------------------------------------------------------
     def _full(self, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -171,23 +206,28 @@ class FoldEngine(ScoringEngine):
     """
 
     def __init__(self, moments: Moments, plan: FoldPlan, *, penalty: str = "ridge", mix: float = 0.0,
-                 intercept: bool = True):
+                 intercept: bool = True, own: dict | None = None):
         k, R = plan.k, plan.repeats
         gram = moments.gram
         has_test = moments.n_cells > R * k
         super().__init__(moments, plan, gram[:k].sum(axis=0), gram[R * k] if has_test else None,
                          penalty=penalty, mix=mix, intercept=intercept,
                          n_train=int(moments.counts[:k].sum()),
-                         n_test=int(moments.counts[R * k]) if has_test else 0)
+                         n_test=int(moments.counts[R * k]) if has_test else 0, own=own)
         self.solvers: list[FoldSolver] = []
         held, train = [], []
         for r in range(R):
             blocks = gram[r * k:(r + 1) * k]
             for f, S in enumerate(complement_sums(blocks)):
-                sv = FoldSolver(S, moments.domain, moments.y_shift, intercept,
-                                label=f"training rows of fold {f + 1}" + (f" (repeat {r + 1})" if R > 1 else ""))
+                mine = self.own.get(r * k + f)
+                sv = _solver(S, moments, intercept,
+                             f"training rows of fold {f + 1}" + (f" (repeat {r + 1})" if R > 1 else ""), mine)
+                if mine is not None and mine.domain is not None:
+                    S, H = mine.train, mine.held
+                else:
+                    H = blocks[f]
                 self.solvers.append(sv)
-                held.append(sv.working(blocks[f]))
+                held.append(sv.working(H))
                 train.append(sv.working(S))
         self._held = np.stack(held)          # held-out statistics per fold (working coordinates)
         self._train = np.stack(train)        # training statistics per fold
@@ -228,7 +268,7 @@ class FoldEngine(ScoringEngine):
 
 
 def engine_from_moments(moments: Moments, plan: FoldPlan, *, penalty: str = "ridge", mix: float = 0.5,
-                        intercept: bool = True) -> FoldEngine:
+                        intercept: bool = True, own: dict | None = None) -> FoldEngine:
     """The scoring engine for per-cell statistics and their fold plan (the one way to build one).
 
     Parameters
@@ -240,6 +280,9 @@ def engine_from_moments(moments: Moments, plan: FoldPlan, *, penalty: str = "rid
     mix : float
         The elastic net's L1 share (ignored for the others).
     intercept : bool
+    own : dict, optional
+        ``{cell index or "full": OwnDomain}``: training sets whose statistics were recomputed in
+        coordinates of their own from the rows (``core.crossval``).
 
     Raises
     ------
@@ -251,4 +294,4 @@ def engine_from_moments(moments: Moments, plan: FoldPlan, *, penalty: str = "rid
     if moments.n_cells not in (need, need + 1):
         raise ParameterError(message("Statistics", f"{need + 1} cells for k = {plan.k}, repeats = {plan.repeats}",
                                      moments.n_cells))
-    return FoldEngine(moments, plan, penalty=penalty, mix=share, intercept=intercept)
+    return FoldEngine(moments, plan, penalty=penalty, mix=share, intercept=intercept, own=own)

@@ -40,13 +40,14 @@ class LooEngine(ScoringEngine):
     ``moments`` has two cells: the training rows and the sealed rows.
     """
 
-    def __init__(self, moments, plan: FoldPlan, x, y, w, *, intercept: bool = True, penalty: str = "ridge"):
+    def __init__(self, moments, plan: FoldPlan, x, y, w, *, intercept: bool = True, penalty: str = "ridge",
+                 own: dict | None = None):
         n_test = int(moments.counts[1]) if moments.n_cells > 1 else 0
         super().__init__(moments, plan, moments.gram[0], moments.gram[1] if n_test else None,
                          penalty=penalty, mix=0.0, intercept=intercept,
-                         n_train=int(moments.counts[0]), n_test=n_test)
+                         n_train=int(moments.counts[0]), n_test=n_test, own=own)
         self.x, self.y, self.w = x, y, w
-        self.P = legendre_columns(moments.domain.map(x), moments.max_degree)
+        self.P = legendre_columns(self.full.domain.map(x), moments.max_degree)
         self._M: dict[int, np.ndarray] = {}
 
     @property
@@ -56,7 +57,8 @@ class LooEngine(ScoringEngine):
     def with_penalty(self, penalty: str, mix: float = 0.5) -> "LooEngine":
         """The same rows scored under another quadratic penalty (the lasso and elastic net are refused)."""
         combination(penalty=penalty, mix=mix, folds="loo")
-        return LooEngine(self.moments, self.plan, self.x, self.y, self.w, intercept=self.intercept, penalty=penalty)
+        return LooEngine(self.moments, self.plan, self.x, self.y, self.w, intercept=self.intercept, penalty=penalty,
+                         own=self.own)
 
     def _leverage_factors(self, degree: int) -> np.ndarray:
         M = self._M.get(degree)
@@ -97,7 +99,7 @@ class LooEngine(ScoringEngine):
 
 
 def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max_degree: int,
-                     intercept: bool = True, penalty: str = "ridge") -> LooEngine:
+                     intercept: bool = True, penalty: str = "ridge", own=None) -> LooEngine:
     """Leave-one-out engine over the rows outside the sealed test set (inputs trusted)."""
     train = ~test_mask
     labels = np.where(train, 0, 1)[None, :].astype(np.int32)
@@ -109,4 +111,5 @@ def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max
     loo_labels[0, train] = np.arange(n)
     loo_plan = FoldPlan("loo", n, 1, seed, loo_labels, test_mask, test_fraction)
     wt = np.ones(n) if w is None else w[train]
-    return LooEngine(mom, loo_plan, x[train], y[train], wt, intercept=intercept, penalty=penalty)
+    own = None if own is None else own(mom, {"full": (train, ~train)})
+    return LooEngine(mom, loo_plan, x[train], y[train], wt, intercept=intercept, penalty=penalty, own=own)

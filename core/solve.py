@@ -128,9 +128,14 @@ class FoldSolver:
     """
 
     def __init__(self, S: np.ndarray, domain: Domain, y_shift: float, intercept: bool = True,
-                 label: str = "training rows"):
+                 label: str = "training rows", *, penalty_window: tuple | None = None, distinct: int | None = None,
+                 rows_factor: tuple | None = None):
         self.D = S.shape[0] - 2
         self.domain = domain
+        # where the curvature integral runs in this solver's own coordinates: (a, b, scale) when
+        # its domain differs from the sweep's (see core.crossval); None means [-1, 1]
+        self.penalty_window = penalty_window
+        self.distinct = distinct
         self.y_shift = float(y_shift)
         self.intercept = bool(intercept)
         self.label = label
@@ -154,11 +159,17 @@ class FoldSolver:
             self.G = S[:D + 1, :D + 1]
             self.g = S[:D + 1, D + 1]
             self.p0 = legendre_columns(np.array([domain.map(0.0)]), D)[0]
-        self.L, self.rank = _chol_rank(self.G)
+        if rows_factor is None:
+            self.L, self.rank = _chol_rank(self.G)
+        else:   # R and Q'y from a QR of the rows themselves: the condition of R, not of R'R
+            self.L = rows_factor[0].T
+            # a QR pivot is accurate to about eps * cond(R), not eps * cond(R)^2: test it unsquared
+            piv = np.diag(self.L) ** 2 > _RANK_TOL ** 2 * np.maximum(np.diag(self.G), 1e-300)
+            self.rank = int(np.argmin(piv)) if not piv.all() else piv.size
         r = self.rank
         # Leading blocks of R^-1 and of q = R^-T g are the lower-degree ones: invert once.
         self.Rinv = solve_triangular(self.L[:r, :r].T, np.eye(r), check_finite=False) if r else np.zeros((0, 0))
-        self.qfull = self.Rinv.T @ self.g[:r]
+        self.qfull = self.Rinv.T @ self.g[:r] if rows_factor is None else np.asarray(rows_factor[1])[:r]
         self.nfull = self.Rinv.T @ self.p0[:r] if not intercept else None
         self._cache: dict[tuple, DegreeFactor] = {}
         self._warned = False
@@ -208,7 +219,8 @@ class FoldSolver:
         """W * Omega in working coordinates (rows of P_1..P_d with an intercept, P_0..P_d without):
         the curvature penalty integral over the mapped range, weighted like the data term."""
         if self._omega is None:
-            self._omega = curvature_matrix(self.D)
+            a, b, scale = self.penalty_window or (-1.0, 1.0, 1.0)
+            self._omega = curvature_matrix(self.D, a, b, scale)
         rows = slice(1, degree + 1) if self.intercept else slice(0, degree + 1)
         return self.W * self._omega[rows, rows]
 
@@ -290,12 +302,17 @@ class FoldSolver:
 
     def _warn_rank(self, degree: int) -> None:
         if not self._warned:
-            distinct = self.rank + (1 if self.intercept else 0)
+            if self.distinct is not None and self.distinct <= degree:
+                why = f"have {self.distinct} distinct x values, fewer than degree + 1 = {degree + 1}"
+            elif self.distinct is not None:
+                why = (f"have {self.distinct} distinct x values, but so crowded into part of the x range that a "
+                       f"degree-{degree} curve is not determined in double precision")
+            else:
+                why = (f"do not determine a degree-{degree} curve in double precision (too few distinct x "
+                       "values, or x values crowded into a small part of the range)")
             warnings.warn(
-                f"The {self.label} have about {distinct} distinct x values, fewer than "
-                f"degree + 1 = {degree + 1}: the fit is not unique at lambda = 0 and a "
-                "minimum-norm solution is used; prefer a lower degree or a larger lambda.",
-                NumericalWarning, stacklevel=4)
+                f"The {self.label} {why}: the fit is not unique at lambda = 0 and a minimum-norm solution is "
+                "used; prefer a lower degree or a larger lambda.", NumericalWarning, stacklevel=4)
             self._warned = True
 
     # --- solutions ----------------------------------------------------------
