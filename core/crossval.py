@@ -115,6 +115,9 @@ def sweep(x, y, degrees, lambdas=None, *, folds: int | str = 10, repeats: int = 
     return surface_from_engine(engine, p.degrees, None if lambdas is None else p.lambdas)
 
 
+# A training set whose Gram matrix is worse conditioned than this (x crowded into part of the range)
+# is refitted at lambda = 0 from its rows, in extended precision, like core.fit.
+CROWDED_CONDITION = 1e10
 # A training set whose rows span less of the sweep's x range than this loses more than
 # OWN_DIGITS digits to Legendre columns of the sweep's mapped x at the highest degree
 # (their conditioning grows like (1 / span)^degree), so it is recomputed in its own coordinates.
@@ -142,7 +145,7 @@ def own_domains(x, y, w, max_degree: int, intercept: bool = True, k: int = 1):
             lo, hi = float(x[train].min()), float(x[train].max())
             span = (hi - lo) / (2.0 * dom.half_width)
             narrow = hi > lo and max_degree >= 2 and max_degree * np.log10(1.0 / span) > OWN_DIGITS
-            crowded = distinct > max_degree and _gram_rank(moments, key, k, intercept) < max_degree + 1
+            crowded = _gram_condition(moments, key, k, intercept) > CROWDED_CONDITION
             if not (narrow or crowded):
                 out[key] = OwnDomain(distinct=distinct)
                 continue
@@ -158,24 +161,33 @@ def own_domains(x, y, w, max_degree: int, intercept: bool = True, k: int = 1):
                 return accumulate(x[mask], y[mask], labels=one, n_cells=1, domain=own, max_degree=max_degree,
                                   weights=None if w is None else w[mask], y_shift=moments.y_shift).gram[0]
 
+            wt = np.ones(x.size) if w is None else w
+            rows = ((x[train], y[train], wt[train]), (x[held], y[held], wt[held])) if crowded else None
             out[key] = OwnDomain(own, stats(train), stats(held) if held.any() else None, (a, b, scale), distinct,
                                  _rows_factor(x[train], y[train], None if w is None else w[train], own,
-                                              max_degree, intercept, moments.y_shift))
+                                              max_degree, intercept, moments.y_shift), rows)
         return out
     return build
 
 
-def _gram_rank(moments, key, k: int, intercept: bool) -> int:
-    """Numerical rank (plus the intercept) of a set's Legendre Gram matrix in the sweep's coordinates,
-    as the solver would see it. ``key`` is "full" (every fold of repeat 0) or a fold cell r * k + f."""
-    from .solve import FoldSolver
-
+def _gram_condition(moments, key, k: int, intercept: bool) -> float:
+    """Condition number of a set's (centred, with an intercept) Legendre Gram matrix in the sweep's
+    coordinates. ``key`` is "full" (every fold of repeat 0) or a fold cell r * k + f."""
     if key == "full":
         S = moments.gram[:k].sum(axis=0)
     else:
         r = key // k
         S = sum(moments.gram[c] for c in range(r * k, (r + 1) * k) if c != key)
-    return FoldSolver(S, moments.domain, moments.y_shift, intercept).rank + (1 if intercept else 0)
+    D = S.shape[0] - 2
+    if D < 1:
+        return 1.0
+    if intercept:
+        s = S[0, 1:D + 1]
+        G = S[1:D + 1, 1:D + 1] - np.outer(s, s) / S[0, 0]
+    else:
+        G = S[:D + 1, :D + 1]
+    ev = np.linalg.eigvalsh(G)
+    return float(ev.max() / ev.min()) if ev.min() > 0 else np.inf
 
 
 def _rows_factor(x, y, w, domain, max_degree: int, intercept: bool, y_shift: float):

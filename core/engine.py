@@ -55,6 +55,7 @@ class OwnDomain:
     window: tuple | None = None
     distinct: int | None = None
     rows_factor: tuple | None = None     # (R, Q'y) from a QR of the rows, for crowded x
+    rows: tuple | None = None            # (x, y, w) training and (x, y, w) held-out rows, for crowded x
 
 
 def _solver(gram, moments, intercept, label, own: OwnDomain | None):
@@ -166,13 +167,20 @@ class ScoringEngine(ABC):
         """Weighted training MSE (SSE / sum w) of the all-rows fit, shape (len(lams),)."""
         degree, lams = self._args(degree, lams)
         theta = self._full(degree, lams)[0]
-        return FoldSolver.sse(self.full_stats, theta) / self.full_stats[0, 0]
+        out = FoldSolver.sse(self.full_stats, theta) / self.full_stats[0, 0]
+        mine = self.own.get("full")
+        if mine is not None and mine.rows is not None and (lams == 0).any() and degree < (mine.distinct or 0):
+            out[lams == 0] = self._rows_solution("full", self.full, degree)[1] / self.full_stats[0, 0]
+        return out
 
     def test_mse(self, degree: int, lam: float) -> float:
         """Sealed-test MSE of the all-rows fit (only meaningful once the user asks to reveal it)."""
         degree, lams = self._args(degree, [lam])
         if self.test_stats is None:
             raise ParameterError("Sealed test set: expected one (test_fraction > 0), got none.")
+        mine = self.own.get("full")
+        if lams[0] == 0 and mine is not None and mine.rows is not None and degree < (mine.distinct or 0):
+            return self._rows_solution("full", self.full, degree)[2] / self.test_stats[0, 0]
         theta = self._full(degree, lams)[0]
         return float(FoldSolver.sse(self.test_stats, theta)[0] / self.test_stats[0, 0])
 
@@ -185,7 +193,39 @@ class ScoringEngine(ABC):
     def _full(self, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(working coefficients (nl, d + 1), effective df (nl,)) of the all-rows fit."""
         coef, edf = self._solve([self.full], degree, lams)
-        return coef[0], edf[0]
+        return self._exact_at_zero("full", self.full, degree, lams, coef[0]), edf[0]
+
+    def _exact_at_zero(self, key, solver, degree: int, lams: np.ndarray, coef: np.ndarray) -> np.ndarray:
+        """``coef`` with its lambda = 0 rows replaced by least squares on the rows themselves, for
+        training sets whose x values are too crowded for the statistics (``OwnDomain.rows``)."""
+        mine = self.own.get(key)
+        zero = lams == 0
+        if mine is None or mine.rows is None or not zero.any() or degree >= (mine.distinct or 0):
+            return coef
+        theta = self._rows_solution(key, solver, degree)[0]
+        coef = coef.copy()
+        coef[zero] = theta
+        return coef
+
+    def _rows_solution(self, key, solver, degree: int):
+        """(working coefficients, training SSE, held-out SSE) of the least-squares fit of one
+        crowded training set, from its rows in extended precision (cached per degree)."""
+        from .fit import least_squares_rows
+
+        cache = self.__dict__.setdefault("_rows_cache", {})
+        got = cache.get((key, degree))
+        if got is None:
+            (xt, yt, wt), (xh, yh, wh) = self.own[key].rows
+            leg = least_squares_rows(xt, yt, wt, degree, self.intercept, solver.domain)[0]
+            theta = leg.copy()
+            theta[0] -= solver.offset
+            curve = solver.curve(theta)
+
+            def sse(x, y, w):
+                r = y.astype(np.longdouble) - curve(x).astype(np.longdouble)
+                return float(np.sum(w * r * r)) if x.size else 0.0
+            got = cache[(key, degree)] = (theta, sse(xt, yt, wt), sse(xh, yh, wh))
+        return got
 
     def _solve(self, solvers: list, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Working coefficients (S, nl, d + 1) and effective df (S, nl) of several training sets
@@ -259,6 +299,13 @@ class FoldEngine(ScoringEngine):
             wh = self._held[:, 0, 0][:, None]
             cv = np.where(wh > 0, FoldBatch.sse(self._held, theta) / wh, np.nan)
             tr = FoldBatch.sse(self._train, theta) / self._train[:, 0, 0][:, None]
+        zero = lams == 0
+        for i, sv in enumerate(self.solvers):        # crowded sets at lambda = 0: from their rows
+            mine = self.own.get(i)
+            if zero.any() and mine is not None and mine.rows is not None and degree < (mine.distinct or 0):
+                _, sse_t, sse_h = self._rows_solution(i, sv, degree)
+                cv[i, zero] = sse_h / self._held[i, 0, 0]
+                tr[i, zero] = sse_t / self._train[i, 0, 0]
         return cv, tr
 
     def _full(self, degree: int, lams: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -27,7 +27,7 @@ from .batch import solve_sets
 from .solve import FoldSolver
 from .validate import check_xyw, require_spread
 
-__all__ = ["FitOutcome", "fit", "fit_from_engine", "band_limits", "BANDS"]
+__all__ = ["FitOutcome", "fit", "fit_from_engine", "band_limits", "least_squares_rows", "BANDS"]
 
 BANDS = ("curve", "reading")
 
@@ -164,8 +164,9 @@ class FitOutcome:
         }
 
 
-def _ols_rows(x, y, w, degree, intercept, domain):
-    """Least squares on Legendre columns with extended-precision refinement."""
+def least_squares_rows(x, y, w, degree, intercept, domain):
+    """Least squares on Legendre columns of these rows with extended-precision refinement:
+    (Legendre coefficients for raw y, raw-x power coefficients, SSE, unscaled covariance, p0)."""
     sw = np.sqrt(w)
     ld = np.longdouble
     p0 = legendre_columns(np.array([domain.map(0.0)]), degree)[0]
@@ -275,7 +276,7 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     se = None
     leg_cov = None
     if lam == 0.0:
-        legendre, power, sse, cov_u, _ = _ols_rows(x, y, w, degree, intercept, domain)
+        legendre, power, sse, cov_u, _ = least_squares_rows(x, y, w, degree, intercept, domain)
         df_res = float(n - npar)
         edf = float(npar)
         resid_sd = float(np.sqrt(sse / df_res))
