@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import io
 import json
+import re
 import threading
 
 import numpy as np
@@ -21,6 +22,12 @@ from core.errors import CurvewrightError
 from . import plots
 from .model import PageModel
 from .text import CAUTION, HELP
+
+
+def _plain(text: str) -> str:
+    """Text shown literally in a Markdown pane: every ASCII punctuation mark backslash-escaped, so
+    file names, column names and cells quoted in a message never become HTML or formatting."""
+    return re.sub(r"([!-/:-@\[-`{-~])", r"\\\1", text)
 
 
 def _fmt(v, digits=5):
@@ -186,7 +193,7 @@ class Workspace(param.Parameterized):
 
     def _on_status(self, *_):
         text = self.model.status
-        self.status.object = text
+        self.status.object = _plain(text)
         self.status.alert_type = "danger" if text.startswith(("Could not", "Export failed", "Not saved")) else "light"
 
     def _on_data(self, *_):

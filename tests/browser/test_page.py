@@ -114,6 +114,17 @@ def test_bad_upload_shows_message_and_keeps_data(workbench, tmp_path):
     np.testing.assert_array_equal(curve(page), before)
 
 
+def test_file_names_in_the_status_stay_plain_text(workbench, tmp_path):
+    """A file name containing markup is shown literally in the status, never rendered as HTML."""
+    page = workbench
+    bad = tmp_path / "run_<b>42<b>_*draft*.csv"
+    bad.write_text("temp,reading\n1,2\n2,n/a\n")
+    page.locator("input[type=file]").set_input_files(str(bad))
+    page.get_by_text("Could not load run_<b>42<b>_*draft*.csv").wait_for(timeout=10000)
+    assert page.locator("b", has_text="42").count() == 0
+    assert page.locator("em", has_text="draft").count() == 0
+
+
 def test_export_downloads_schema_valid_json(workbench, tmp_path):
     """Export downloads a choice file that matches the schema and records the rule and the file."""
     page = workbench
