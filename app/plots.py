@@ -1,4 +1,4 @@
-"""Figure factories and pure functions turning state outputs into column dicts.
+"""Figure factories and pure functions turning the page model's outputs into column dicts.
 
 Figures and ColumnDataSources are created once per page; updates assign a
 whole new dict to ``source.data``. Sources carry names so browser tests can
@@ -11,6 +11,8 @@ import numpy as np
 from bokeh.models import (BasicTicker, ColorBar, ColumnDataSource, HoverTool, LinearColorMapper, Span,
                           Whisker)
 from bokeh.plotting import figure
+
+from .session import LOG_LAMBDA_OFF
 
 # The workbench palette (our own): ink, fit rows, set-aside rows, sealed rows, warnings.
 INK = "#14213d"
@@ -204,7 +206,7 @@ def learning_columns(lc) -> dict:
 
 
 class FigureSet:
-    """Every workbench figure and source, created once; ``update`` fills them from a state.
+    """Every workbench figure and source, created once; ``update`` fills them from a page model.
 
     Shared by the page (``views.Workspace``) and the standalone report.
     """
@@ -216,31 +218,29 @@ class FigureSet:
         self.lc_fig, self.lc_src = make_learning_figure()
         self.gd_fig, self.gd_src, self.gd_ref = make_gd_figure()
 
-    def update_data(self, state) -> None:
-        """Parts that change only with new statistics: heat map, axis labels."""
+    def update_data(self, model) -> None:
+        """Parts that change only with new statistics: heat map, axis labels (``model``: a
+        ``app.model.PageModel``)."""
         import math
 
-        if state.surface is not None:
-            s = state.surface
+        if model.surface is not None:
+            s = model.surface
             self.cx_src["heat"].data = heat_columns(s)
             recs = list(s.recommended.values())
             self.cx_src["heat_rec"].data = {
                 "x": [math.log10(r.lam) if r.lam > 0 else math.log10(s.lambdas[1]) for r in recs],
                 "y": [r.degree for r in recs], "rule": [r.rule for r in recs]}
-        names = ((state.table.x.name, state.table.y.name) if state.table is not None else
-                 ((state.stats_meta or {}).get("x_column"), (state.stats_meta or {}).get("y_column")))
+        names = model.axis_names()
         if names[0]:
             self.fit_fig.xaxis.axis_label = self.rx.xaxis.axis_label = names[0]
         if names[1]:
             self.fit_fig.yaxis.axis_label = names[1]
             self.ry.xaxis.axis_label = "fitted " + names[1]
-        self.lc_src.data = learning_columns(state.learning)
+        self.lc_src.data = learning_columns(model.learning)
 
-    def update(self, state, show_sealed: bool) -> None:
+    def update(self, model, show_sealed: bool) -> None:
         """Everything that follows one change of degree or lambda."""
-        from .state import LOG_LAMBDA_OFF
-
-        out = state.out
+        out = model.out
         if not out:
             return
         keep = ~out["test"]
@@ -264,15 +264,15 @@ class FigureSet:
         self.cx_src["deg_now"].data = {"x": [out["degree"]], "y": [out["cv_mse"]]}
         lam_x = out["lam"] if out["lam"] > 0 else 10 ** LOG_LAMBDA_OFF
         self.cx_src["lam_now"].data = {"x": [lam_x], "y": [out["cv_mse"]]}
-        recs = list(state.surface.recommended.values())
+        recs = list(model.surface.recommended.values())
         near = [r for r in recs if np.isclose(r.lam, out["lam"], rtol=0.3)]
         self.cx_src["deg_rec"].data = {"x": [r.degree for r in near], "y": [r.cv_mse for r in near],
                                        "rule": [r.rule for r in near]}
         here = [r for r in recs if r.degree == out["degree"]]
         self.cx_src["lam_rec"].data = {"x": [max(r.lam, 10 ** LOG_LAMBDA_OFF) for r in here],
                                        "y": [r.cv_mse for r in here], "rule": [r.rule for r in here]}
-        self.lc_src.data = learning_columns(state.learning)
-        gd = getattr(state, "gd", None)
+        self.lc_src.data = learning_columns(model.learning)
+        gd = model.gd
         if gd is not None:
             ok = np.isfinite(gd.cost) & (gd.cost > 0)
             steps = np.flatnonzero(ok)

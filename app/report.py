@@ -23,7 +23,8 @@ from core.errors import DataError, message
 from core.influence import influence
 
 from . import plots
-from .state import LOG_LAMBDA_OFF, Workbench
+from .model import PageModel
+from .session import LOG_LAMBDA_OFF, Session
 from .text import CAUTION
 
 STYLE = ("font-family: system-ui, sans-serif; color: #14213d; max-width: 1100px; line-height: 1.45;")
@@ -35,43 +36,44 @@ def _f(v, digits=6):
     return f"{v:.{digits}g}"
 
 
-def _state_for(choice: Choice, data_path) -> Workbench:
+def _model_for(choice: Choice, data_path) -> PageModel:
+    """The page model re-deriving the choice from the data with the file's settings (refused when
+    the data or the recomputed CV error differ)."""
     doc = choice.doc
     d, m, v = doc["data"], doc["model"], doc["validation"]
     if v["scheme"] == "explicit":
         raise DataError(message("Choice file field 'validation/scheme'", "kfold or group for a report",
                                 "'explicit'", "Explicit fold columns are not re-read by the report yet"))
-    wb = Workbench(folds=v["k"], seed=v["seed"], test_fraction=v["sealed_test"]["fraction"],
-                   repeats=v["repeats"], x_column=d["x_column"], y_column=d["y_column"],
-                   weight_column=m["weights_column"] or "", weight_kind=m.get("weights_kind") or "weights",
-                   group_column=v.get("group_column") or "", penalty=m.get("penalty", "ridge"),
-                   mix=max(0.05, m.get("mix") or 0.5),
-                   exclude=", ".join(map(str, d.get("excluded_rows", []))))
-    if not wb.load_path(data_path):
-        raise DataError(wb.status)
-    if wb.table.columns_sha256 != d["columns_sha256"]:
+    session = Session(folds=v["k"], seed=v["seed"], test_fraction=v["sealed_test"]["fraction"],
+                      repeats=v["repeats"], x_column=d["x_column"], y_column=d["y_column"],
+                      weight_column=m["weights_column"] or "", weight_kind=m.get("weights_kind") or "weights",
+                      group_column=v.get("group_column") or "", penalty=m.get("penalty", "ridge"),
+                      mix=max(0.05, m.get("mix") or 0.5),
+                      exclude=", ".join(map(str, d.get("excluded_rows", []))))
+    model = PageModel(session)
+    if not model.load_path(data_path):
+        raise DataError(model.status)
+    if model.table.columns_sha256 != d["columns_sha256"]:
         raise DataError(message("Choice file field 'data/columns_sha256'",
                                 f"the fingerprint of the selected columns of '{Path(data_path).name}'",
                                 "a different one", "Give the data file the curve was chosen on"))
     lam = m["lambda"]
-    wb.degree = m["degree"]
-    wb.log_lambda = LOG_LAMBDA_OFF if lam == 0 else math.log10(lam)
-    if lam != 0:
-        wb.out  # refresh already ran through the watchers
-    cv = wb.out["cv_mse"]
+    session.degree = m["degree"]
+    session.log_lambda = LOG_LAMBDA_OFF if lam == 0 else math.log10(lam)
+    cv = model.out["cv_mse"]
     if not math.isclose(cv, v["cv_mse"], rel_tol=1e-7):
         raise DataError(message("Choice file field 'validation/cv_mse'",
                                 f"the value recomputed from the data and fold settings ({cv:.12g})",
                                 f"{v['cv_mse']:.12g}", "The file was edited or made from other settings"))
-    wb.compute_learning_curve()
-    return wb
+    model.compute_learning_curve()
+    return model
 
 
-def _notices(choice: Choice, wb: Workbench, infl) -> list[str]:
+def _notices(choice: Choice, model: PageModel, infl) -> list[str]:
     doc = choice.doc
     out = []
     lo, hi = doc["data"]["x_range"]
-    g = wb.out["grid"]
+    g = model.out["grid"]
     if g.min() < lo or g.max() > hi:
         out.append(f"The curve is drawn from {g.min():.4g} to {g.max():.4g}, a little beyond the fitted x range "
                    f"[{lo:.4g}, {hi:.4g}]: outside that range it is an extrapolation and should not be relied on.")
@@ -83,7 +85,7 @@ def _notices(choice: Choice, wb: Workbench, infl) -> list[str]:
             out.append(f"The {name} recommendation's lambda lies at the edge of the lambda grid: widen the grid.")
     if infl is not None and infl.flagged.size:
         out.append(f"{infl.flagged.size} row(s) have a large influence on the curve (Cook's distance above 4/n, "
-                   f"common practice): rows at x = " + ", ".join(f"{v:.4g}" for v in wb._x[~wb._test][infl.flagged][:8])
+                   f"common practice): rows at x = " + ", ".join(f"{v:.4g}" for v in model.training_rows()[0][infl.flagged][:8])
                    + ". Check them for recording errors before trusting the curve.")
     if doc["validation"]["sealed_test"]["revealed"] is False and doc["validation"]["sealed_test"]["n"]:
         out.append("The sealed test set was not looked at before this choice was exported: its error is not "
@@ -93,16 +95,15 @@ def _notices(choice: Choice, wb: Workbench, infl) -> list[str]:
 
 def build_report(choice: Choice, data_path) -> str:
     """The report as an HTML string (see module docstring)."""
-    wb = _state_for(choice, data_path)
+    model = _model_for(choice, data_path)
     doc = choice.doc
     m, v, d = doc["model"], doc["validation"], doc["data"]
     figs = plots.FigureSet(d["x_column"], d["y_column"])
-    figs.update_data(wb)
-    figs.update(wb, show_sealed=True)
+    figs.update_data(model)
+    figs.update(model, show_sealed=True)
     infl = None
     if m["lambda"] == 0:
-        x_tr, y_tr = wb._x[~wb._test], wb._y[~wb._test]
-        w = None if wb.table.weights is None else wb.table.weights[wb._keep][~wb._test]
+        x_tr, y_tr, w = model.training_rows()
         fit = core.fit(x_tr, y_tr, m["degree"], 0.0, weights=w, intercept=m["intercept"])
         infl = influence(fit, x_tr, y_tr, w)
 
@@ -128,8 +129,8 @@ def build_report(choice: Choice, data_path) -> str:
                    f"{html.escape(str(st['revealed_at']))} for degree {st['degree']}, lambda {_f(st['lambda'], 4)}."
                    if st["revealed"] else
                    f"Sealed test set: {st['n']} rows set aside; not revealed before export.")
-    notices = _notices(choice, wb, infl)
-    reading = core.describe_learning_curve(wb.learning) if wb.learning is not None else ""
+    notices = _notices(choice, model, infl)
+    reading = core.describe_learning_curve(model.learning) if model.learning is not None else ""
     units = f" {d['y_unit']}" if d["y_unit"] else ""
     head = f"""
 <h1>Curve report: {html.escape(d['y_column'])} against {html.escape(d['x_column'])}</h1>

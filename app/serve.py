@@ -1,4 +1,4 @@
-"""Build the page and serve it on 127.0.0.1 (thin: every session gets its own state)."""
+"""Build the page and serve it on 127.0.0.1 (thin: every browser session gets its own session and model)."""
 
 from __future__ import annotations
 
@@ -7,25 +7,25 @@ from pathlib import Path
 
 import panel as pn
 
-from .state import Workbench
+from .loading import should_stream
+from .model import PageModel
+from .session import Session
 from .views import Workspace
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_sets" / "furnace_yield.csv"
 
 
 def build_page(path=None, stats=None):
-    """A fresh state and page for one browser session.
+    """A fresh session, model and page for one browser session.
 
     A file large enough to be streamed is loaded after the page is shown, in a thread,
     so the page's progress bar can follow it.
     """
-    big = (path is not None and stats is None and Path(path).is_file()
-           and Path(path).suffix.lower() in (".csv", ".tsv", ".txt", ".parquet")
-           and Path(path).stat().st_size > Workbench.stream_bytes)
-    state = Workbench(None if (stats or big) else (path or SAMPLE), stats=stats)
-    page = Workspace(state).panel()
+    big = path is not None and stats is None and should_stream(path)
+    model = PageModel(Session(), None if (stats or big) else (path or SAMPLE), stats=stats)
+    page = Workspace(model).panel()
     if big:
-        state.status = f"Streaming {Path(path).name} into the statistics..."
+        model.status = f"Streaming {Path(path).name} into the statistics..."
         doc = pn.state.curdoc
 
         def load():
@@ -36,12 +36,12 @@ def build_page(path=None, stats=None):
 
                 with pn.io.server.set_curdoc(doc):
                     try:
-                        args = state.stream_engine(path)
+                        args = model.stream_engine(path)
                     except CurvewrightError as exc:
                         msg = f"Could not load {Path(path).name}: {exc}"
-                        doc.add_next_tick_callback(lambda: setattr(state, "status", msg))
+                        doc.add_next_tick_callback(lambda: setattr(model, "status", msg))
                         return
-                doc.add_next_tick_callback(lambda: state.finish_stream(*args))
+                doc.add_next_tick_callback(lambda: model.finish_stream(*args))
             threading.Thread(target=run, daemon=True).start()
         pn.state.onload(load)
     return page

@@ -1,12 +1,16 @@
-"""Views of the workbench state. Each holds the state and only derives from it."""
+"""Views of one page: widgets bound to the session, figures and text drawn from the page model.
+
+Views compute nothing: sliders and fields are bound to the ``Session`` (``from_param``),
+buttons call the ``PageModel``'s actions, and every figure and number is read from the
+model when it announces a change (``version``, ``data_version``, ``status``).
+"""
 
 from __future__ import annotations
 
 import io
-import threading
 import json
-import math
-from pathlib import Path
+import re
+import threading
 
 import numpy as np
 import panel as pn
@@ -14,12 +18,16 @@ import param
 
 import core
 from core.errors import CurvewrightError
-from core.files import write_atomic
 
 from . import plots
-from .state import Workbench
+from .model import PageModel
+from .text import CAUTION, HELP
 
-from .text import CAUTION, HELP  # noqa: E402
+
+def _plain(text: str) -> str:
+    """Text shown literally in a Markdown pane: every ASCII punctuation mark backslash-escaped, so
+    file names, column names and cells quoted in a message never become HTML or formatting."""
+    return re.sub(r"([!-/:-@\[-`{-~])", r"\\\1", text)
 
 
 def _fmt(v, digits=5):
@@ -29,14 +37,13 @@ def _fmt(v, digits=5):
 
 
 class Workspace(param.Parameterized):
-    """One page: the state plus every widget and figure, created once."""
+    """One page: the model plus every widget and figure, created once."""
 
-    def __init__(self, state: Workbench, **params):
+    def __init__(self, model: PageModel, **params):
         super().__init__(**params)
-        self.state = s = state
-        xl = s.table.x.name if s.table else "x"
-        yl = s.table.y.name if s.table else "y"
-        self.figs = f = plots.FigureSet(xl, yl)
+        self.model = m = model
+        xl, yl = m.axis_names()
+        self.figs = f = plots.FigureSet(xl or "x", yl or "y")
         self.fit_fig, self.rx, self.ry, self.rh = f.fit_fig, f.rx, f.ry, f.rh
         self.fd, self.fl, self.fh, self.lc_fig = f.fd, f.fl, f.fh, f.lc_fig
         self.gd_text = pn.pane.Markdown("Set a learning rate and press *Run gradient descent*: it starts from "
@@ -45,16 +52,16 @@ class Workspace(param.Parameterized):
         self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
         self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
         self._build_widgets()
-        s.param.watch(self._on_version, "version")
-        s.param.watch(self._on_status, "status")
-        s.param.watch(self._on_data, "data_version")
+        m.param.watch(self._on_version, "version")
+        m.param.watch(self._on_status, "status")
+        m.param.watch(self._on_data, "data_version")
         self._on_data()
         self._on_version()
         self._on_status()
 
     # ---- widgets ------------------------------------------------------------------
     def _build_widgets(self):
-        s = self.state
+        m, s = self.model, self.model.session
         self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", sizing_mode="stretch_width")
         self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="log10 lambda (left end: 0)",
                                                      sizing_mode="stretch_width")
@@ -67,20 +74,20 @@ class Workspace(param.Parameterized):
         self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", label="Data file",
                                            sizing_mode="stretch_width")
         self.upload.param.watch(self._on_upload, "value")
-        cols = s.columns or [""]
+        cols = m.columns or [""]
         self.xcol = pn.widgets.Select(label="x column", options=cols, value=s.x_column or cols[0], width=150)
         self.ycol = pn.widgets.Select(label="y column", options=cols, value=s.y_column or cols[-1], width=150)
         self.wcol = pn.widgets.Select(label="weights (optional)", options=[""] + cols, value=s.weight_column, width=150)
         self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="that column holds", width=150)
         self.apply_cols = pn.widgets.Button(label="Use these columns", color="default")
-        self.apply_cols.on_click(lambda e: self._safe(lambda: s.select_columns(self.xcol.value, self.ycol.value,
+        self.apply_cols.on_click(lambda e: self._safe(lambda: m.select_columns(self.xcol.value, self.ycol.value,
                                                                                   self.wcol.value)))
         self.rec_min = pn.widgets.Button(label="Suggest: lowest CV error", color="primary")
         self.rec_1se = pn.widgets.Button(label="Suggest: simplest within 1 SE", color="primary")
-        self.rec_min.on_click(lambda e: self._safe(lambda: s.recommend("min")))
-        self.rec_1se.on_click(lambda e: self._safe(lambda: s.recommend("1se")))
+        self.rec_min.on_click(lambda e: self._safe(lambda: m.recommend("min")))
+        self.rec_1se.on_click(lambda e: self._safe(lambda: m.recommend("1se")))
         self.lc_button = pn.widgets.Button(label="Learning curve", color="default")
-        self.lc_button.on_click(lambda e: self._safe(s.compute_learning_curve))
+        self.lc_button.on_click(lambda e: self._safe(m.compute_learning_curve))
         self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning")
         self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False)
         self.confirm_btn = pn.widgets.Button(label="Confirm reveal", color="danger", visible=False)
@@ -100,26 +107,26 @@ class Workspace(param.Parameterized):
         self.exclude = pn.widgets.TextInput.from_param(s.param.exclude, label="Exclude rows (recorded)",
                                                        placeholder="e.g. 11, 33", sizing_mode="stretch_width")
         self.boot = pn.widgets.Button(label="Bootstrap band (200 refits)", color="default")
-        self.boot.on_click(lambda e: self._safe(s.bootstrap_band))
+        self.boot.on_click(lambda e: self._safe(m.bootstrap_band))
         self.bv = pn.widgets.Button(label="Bias / variance split", color="default")
-        self.bv.on_click(lambda e: self._safe(s.compute_bias_variance))
+        self.bv.on_click(lambda e: self._safe(m.compute_bias_variance))
         self.gd_rate = pn.widgets.FloatInput.from_param(s.param.gd_rate, label="Learning rate", width=120)
         self.gd_iter = pn.widgets.IntInput.from_param(s.param.gd_iterations, label="Steps", width=120)
         self.gd_run = pn.widgets.Button(label="Run gradient descent", color="primary")
-        self.gd_run.on_click(lambda e: self._safe(s.run_gradient_descent))
+        self.gd_run.on_click(lambda e: self._safe(m.run_gradient_descent))
         self.progress = pn.indicators.Progress(value=0, max=1000, visible=False, sizing_mode="stretch_width",
                                                name="progress")
         self.progress_text = pn.pane.Str("", visible=False)
         self._doc, self._thread = pn.state.curdoc, threading.get_ident()
-        s.param.watch(self._on_progress, ["progress", "progress_text"])
+        m.param.watch(self._on_progress, ["progress", "progress_text"])
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
-        s.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
+        m.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
 
     def _safe(self, fn):
         try:
             fn()
         except CurvewrightError as exc:
-            self.state.status = str(exc)
+            self.model.status = str(exc)
 
     # ---- events -------------------------------------------------------------------
     def _on_progress(self, *_):
@@ -129,7 +136,7 @@ class Workspace(param.Parameterized):
         self._show_progress()
 
     def _show_progress(self):
-        s = self.state
+        s = self.model
         with pn.io.unlocked():
             self.progress.value = int(1000 * s.progress)
             self.progress.visible = 0 < s.progress < 1
@@ -139,10 +146,11 @@ class Workspace(param.Parameterized):
     def _on_upload(self, event):
         if not event.new:
             return
-        self.state.load_bytes(event.new, self.upload.filename or "upload.csv")
-        cols = self.state.columns or [""]
+        m = self.model
+        m.load_bytes(event.new, self.upload.filename or "upload.csv")
+        cols = m.columns or [""]
         self.xcol.options, self.ycol.options, self.wcol.options = cols, cols, [""] + cols
-        self.xcol.value, self.ycol.value = self.state.x_column, self.state.y_column
+        self.xcol.value, self.ycol.value = m.session.x_column, m.session.y_column
 
     def _ask_reveal(self, _):
         self.confirm.visible = True
@@ -150,49 +158,42 @@ class Workspace(param.Parameterized):
 
     def _do_reveal(self, _):
         if not self.confirm.value:
-            self.state.status = "Tick the confirmation box to reveal the sealed test."
+            self.model.status = "Tick the confirmation box to reveal the sealed test."
             return
-        self.state.reveal_test()
+        self.model.reveal_test()
         self.confirm.visible = self.confirm_btn.visible = False
         self.confirm.value = False
 
     def _export(self):
         try:
-            text = self.state.choice(self.notes.value or "").to_json()
+            text = self.model.choice(self.notes.value or "").to_json()
         except CurvewrightError as exc:
-            self.state.status = f"Export failed: {exc}"
+            self.model.status = f"Export failed: {exc}"
             return io.StringIO(json.dumps({"error": str(exc)}))
-        self.state.status = "Choice exported (downloaded as curve_choice.json)."
+        self.model.status = "Choice exported (downloaded as curve_choice.json)."
         return io.StringIO(text)
 
     def _report(self):
         from .report import report_in_subprocess
 
-        s = self.state
+        m = self.model
+        if m.source_path is None:
+            m.status = "Export failed: the report re-reads the rows; open the data file itself to build one."
+            return io.StringIO("<p>Report not built: the rows are not loaded.</p>")
         try:
-            text = report_in_subprocess(s.choice(self.notes.value or "").to_json(), s._source_path)
+            text = report_in_subprocess(m.choice(self.notes.value or "").to_json(), m.source_path)
         except CurvewrightError as exc:
-            s.status = f"Export failed: {exc}"
+            m.status = f"Export failed: {exc}"
             return io.StringIO(f"<p>Report not built: {exc}</p>")
-        s.status = "Report downloaded (curve_report.html)."
+        m.status = "Report downloaded (curve_report.html)."
         return io.StringIO(text)
 
     def _save_beside(self, _):
-        s = self.state
-        src = getattr(s, "_source_path", None)
-        if not src or s._display_name != Path(src).name:
-            s.status = "Only a file opened from disk can be saved beside; use Export for uploads."
-            return
-        target = Path(src).with_name(Path(src).stem + "_choice.json")
-        try:
-            s.choice(self.notes.value or "").save(target)
-            s.status = f"Saved {target.name} next to the data file."
-        except CurvewrightError as exc:
-            s.status = f"Not saved: {exc}"
+        self.model.save_beside(self.notes.value or "")
 
     def _on_status(self, *_):
-        text = self.state.status
-        self.status.object = text
+        text = self.model.status
+        self.status.object = _plain(text)
         self.status.alert_type = "danger" if text.startswith(("Could not", "Export failed", "Not saved")) else "light"
 
     def _on_data(self, *_):
@@ -200,7 +201,7 @@ class Workspace(param.Parameterized):
             self._update_data_views()
 
     def _update_data_views(self):
-        self.figs.update_data(self.state)
+        self.figs.update_data(self.model)
         self.lc_text.object = "Press *Learning curve* to compute it for the current setting."
 
     def _on_version(self, *_):
@@ -210,26 +211,25 @@ class Workspace(param.Parameterized):
             self._update_views()
 
     def _update_views(self):
-        s = self.state
-        if not s.out:
+        m = self.model
+        if not m.out:
             return
-        self.figs.update(s, show_sealed=s.surface is not None and s.surface.test_revealed)
-        if s.learning is not None:
+        self.figs.update(m, show_sealed=m.surface is not None and m.surface.test_revealed)
+        if m.learning is not None:
             self.lc_text.object = (f"**Reading (guidance, not certainty):** "
-                                   f"{core.describe_learning_curve(s.learning)}  \n"
-                                   f"Computed for degree {s.learning.degree}, lambda {_fmt(s.learning.lam, 3)}.")
-        self.numbers.object = self._numbers_md(s.out)
-        if s.gd is not None:
-            self.gd_text.object = ("**" + s.gd.message + "**" +
-                                   (f"  \nLargest stable rate for this design: about {s.gd.max_stable_rate:.3g}."))
+                                   f"{core.describe_learning_curve(m.learning)}  \n"
+                                   f"Computed for degree {m.learning.degree}, lambda {_fmt(m.learning.lam, 3)}.")
+        self.numbers.object = self._numbers_md(m.out)
+        if m.gd is not None:
+            self.gd_text.object = ("**" + m.gd.message + "**" +
+                                   (f"  \nLargest stable rate for this design: about {m.gd.max_stable_rate:.3g}."))
 
     def _numbers_md(self, out) -> str:
-        s = self.state
-        e = s.engine
-        cv_rmse = math.sqrt(out["cv_mse"])
-        se_rmse = out["cv_mse_se"] / (2 * cv_rmse) if cv_rmse > 0 else float("nan")
+        m = self.model
+        e = m.engine
         lines = [f"### Degree {out['degree']}, lambda {_fmt(out['lam'], 4)}", "",
-                 f"CV RMSE **{_fmt(cv_rmse)}** ± {_fmt(se_rmse, 2)} · training RMSE {_fmt(out['train_rmse'])} · "
+                 f"CV RMSE **{_fmt(out['cv_rmse'])}** ± {_fmt(out['cv_rmse_se'], 2)} · "
+                 f"training RMSE {_fmt(out['train_rmse'])} · "
                  f"effective df {_fmt(out['effective_df'], 4)} · rows: {e.n_train} for CV, {e.n_test} sealed", ""]
         extra = [f"GCV {_fmt(out.get('gcv_mse'))}"]
         if out.get("loo_mse") is not None:
@@ -238,35 +238,34 @@ class Workspace(param.Parameterized):
             extra.append(f"reduced chi-square {_fmt(out['reduced_chi_square'], 4)} (near 1 when the curve and the "
                          "stated uncertainties agree)")
         lines.extend([" · ".join(extra), ""])
-        sealed = s.surface.sealed
-        if sealed.revealed:
-            lines.append(f"Sealed test RMSE **{_fmt(math.sqrt(sealed.mse))}** (revealed {sealed.revealed_at} "
-                         f"for degree {sealed.degree}, lambda {_fmt(sealed.lam, 3)})")
+        sealed = m.surface.sealed.to_dict()
+        if sealed["revealed"]:
+            lines.append(f"Sealed test RMSE **{_fmt(sealed['rmse'])}** (revealed {sealed['revealed_at']} "
+                         f"for degree {sealed['degree']}, lambda {_fmt(sealed['lambda'], 3)})")
         else:
             lines.append("Sealed test: not revealed.")
         lines.append("")
         lines.append("| term | coefficient (raw x) |")
         lines.append("|---|---|")
-        from core.basis import legendre_to_power
-        if np.all(np.isfinite(out["theta"])):
-            power = legendre_to_power(e.domain, out["theta"])
-            for k, a in enumerate(power):
+        if out["power"] is not None:
+            for k, a in enumerate(out["power"]):
                 lines.append(f"| {'1' if k == 0 else ('x' if k == 1 else f'x^{k}')} | {a:.10g} |")
         else:
             lines.append("| – | not defined: this degree is too collinear for the chosen penalty |")
         lines.append("")
         lines.append("Standard errors and the exact least-squares numbers are in the export and `curvewright fit`.")
-        if s.penalty != "ridge":
-            lines.insert(2, f"Penalty: {s.penalty}" + (f" (L1 share {s.mix:g})" if s.penalty == "elastic" else ""))
+        if out["penalty"] != "ridge":
+            lines.insert(2, f"Penalty: {out['penalty']}"
+                         + (f" (L1 share {out['mix']:g})" if out["penalty"] == "elastic" else ""))
         infl = out.get("influential")
         if infl is not None and infl.any():
             rows = ", ".join(str(int(r)) for r in out["rows"][infl][:10])
             lines.append(f"\n*Influential rows* (Cook's D > 4/n, common practice; purple in the residual plots): "
                          f"{rows}. Check them; exclude one only with a reason (it is recorded).")
-        if s.table is not None and s.table.excluded_rows:
-            lines.append(f"\n*Excluded on request:* rows {', '.join(map(str, s.table.excluded_rows))}.")
-        if s.bias_var is not None:
-            b = s.bias_var
+        if m.table is not None and m.table.excluded_rows:
+            lines.append(f"\n*Excluded on request:* rows {', '.join(map(str, m.table.excluded_rows))}.")
+        if m.bias_var is not None:
+            b = m.bias_var
             lines.append(f"\n*Expected error split* (simulated from the fit): bias² {b.bias2:.4g} + variance "
                          f"{b.variance:.4g} + noise {b.noise:.4g} = {b.expected_mse:.4g}")
         for w in out.get("warnings", [])[:2]:
@@ -275,7 +274,6 @@ class Workspace(param.Parameterized):
 
     # ---- layout ---------------------------------------------------------------------
     def panel(self):
-        s = self.state
         controls = pn.Column(
             pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), pn.Row(self.wcol, self.wkind), self.apply_cols,
             pn.pane.Markdown("#### Flexibility"), self.degree, self.lam, pn.Row(self.penalty, self.mix),

@@ -4,7 +4,7 @@ For n = 1e4, 1e5, 1e6 invented rows, serves the page in-process on 127.0.0.1, op
 Debian's chromium (Playwright), presses arrow keys on the degree and lambda sliders
 30 times and reports the median and p95 time until the fit, residual and both
 error-vs-complexity sources have all changed. Also reports the server-side compute of
-one change (state refresh) for comparison. Needs `chromium` on PATH.
+one change (the page model's refresh) for comparison. Needs `chromium` on PATH.
 
 Usage: python bench/bench_page.py [--sizes 1e4,1e5,1e6] [--moves 30]
 """
@@ -52,17 +52,19 @@ def free_port() -> int:
 def measure(path: Path, moves: int) -> tuple[list[float], list[float]]:
     from playwright.sync_api import sync_playwright
 
+    from app.model import PageModel
     from app.serve import serve
-    from app.state import Workbench
+    from app.session import Session
 
-    wb = Workbench(path)
+    session = Session()
+    PageModel(session, path)
     server_ms = []
     for i in range(moves):
         t0 = time.perf_counter()
         if i % 2:
-            wb.log_lambda = -3 + 0.1 * (i % 10)
+            session.log_lambda = -3 + 0.1 * (i % 10)
         else:
-            wb.degree = 3 + i % 6
+            session.degree = 3 + i % 6
         server_ms.append((time.perf_counter() - t0) * 1e3)
 
     port = free_port()

@@ -28,6 +28,7 @@ def field(html, name):
 
 
 def test_report_numbers_equal_the_choice(made):
+    """The report prints the choice file's degree, lambda, CV RMSE and coefficients, the caution, the interval, and inlines its JavaScript."""
     _, choice, out = made
     doc = json.loads(choice.read_text())
     html = out.read_text()
@@ -42,6 +43,7 @@ def test_report_numbers_equal_the_choice(made):
 
 
 def test_tampered_choice_is_refused_with_the_field(made, tmp_path, capsys):
+    """A choice whose CV error was edited, or whose degree is not a number, is refused naming the field; nothing is written."""
     _, choice, _ = made
     doc = json.loads(choice.read_text())
     doc["validation"]["cv_mse"] *= 0.5
@@ -58,6 +60,7 @@ def test_tampered_choice_is_refused_with_the_field(made, tmp_path, capsys):
 
 
 def test_other_data_is_refused(made, tmp_path, capsys):
+    """Data other than the rows the curve was chosen on are refused by their column fingerprint."""
     _, choice, _ = made
     other = tmp_path / "other.csv"
     other.write_text(DATA.read_text().replace("51.06", "52.06"))
@@ -66,6 +69,30 @@ def test_other_data_is_refused(made, tmp_path, capsys):
 
 
 def test_report_refuses_to_overwrite(made, capsys):
+    """An existing report is not overwritten without --force."""
     d, choice, out = made
     assert main(["report", str(choice), str(DATA), "--out", str(out)]) == 2
     assert "pass --force to overwrite" in capsys.readouterr().err
+
+
+def test_report_of_a_page_choice_rederives_it_through_the_page_model(tmp_path):
+    """A choice exported from the page model (here with the lasso) is re-derived by the report with
+    the same settings: the report's CV RMSE is the choice's, which equals core.sweep's."""
+    import core
+    from app.model import PageModel
+    from app.report import build_report
+    from app.session import Session
+    from core.choice import Choice
+
+    s = Session(penalty="lasso")
+    m = PageModel(s, DATA)
+    s.degree, s.log_lambda = 3, -1.0
+    choice = Choice.from_json(m.choice().to_json())
+    assert choice.doc["model"]["penalty"] == "lasso"
+    t = m.table
+    ref = core.sweep(t.x.values, t.y.values, [3], [0.1], folds=s.folds, seed=s.seed,
+                     test_fraction=s.test_fraction, penalty="lasso")
+    assert choice.doc["validation"]["cv_mse"] == pytest.approx(ref.cv_mse[0, 0], rel=1e-9)
+    html = build_report(choice, DATA)
+    assert float(field(html, "cv_rmse")[0]) == pytest.approx(choice.doc["validation"]["cv_rmse"], rel=1e-9)
+    assert int(field(html, "degree")[0]) == 3

@@ -10,7 +10,8 @@ import pytest
 from playwright.sync_api import expect
 
 import core
-from app.state import Workbench
+from app.model import PageModel
+from app.session import Session
 from core.choice import SCHEMA
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_sets" / "furnace_yield.csv"
@@ -34,9 +35,8 @@ def wait_curve_change(page, before, timeout=10):
 
 def expected_curve(page, degree, lam):
     """core.fit on the page's training rows (same seed, folds, sealed fraction), at the page's x grid."""
-    ref = Workbench(SAMPLE)
-    rows = np.flatnonzero(ref._keep)[~ref.engine.plan.test_mask]
-    fit = core.fit(ref.table.x.values[rows], ref.table.y.values[rows], degree, lam)
+    x, y, _ = PageModel(Session(), SAMPLE).training_rows()
+    fit = core.fit(x, y, degree, lam)
     return fit.predict(np.array(page.evaluate(CURVE_X)))
 
 
@@ -45,6 +45,7 @@ def slider(page, i):
 
 
 def test_page_loads_with_caution_and_screenshot(workbench, artifacts):
+    """The page opens with the caution and the suggestion buttons; a full-page screenshot is kept."""
     page = workbench
     assert page.get_by_text("Local codes, standards and licensed professional practice govern").count() == 1
     assert page.get_by_text("Suggest: simplest within 1 SE").count() == 1
@@ -53,6 +54,7 @@ def test_page_loads_with_caution_and_screenshot(workbench, artifacts):
 
 
 def test_keyboard_moves_degree_and_curve_equals_core(workbench):
+    """Arrow keys move the degree slider; the drawn curve becomes core.fit's for the new degree."""
     page = workbench
     before = curve(page)
     slider(page, 0).focus()
@@ -68,6 +70,7 @@ def test_keyboard_moves_degree_and_curve_equals_core(workbench):
 
 
 def test_mouse_drag_moves_lambda(workbench):
+    """Dragging the lambda slider redraws the curve as core.fit's at the new lambda."""
     page = workbench
     before = curve(page)
     handle = slider(page, 1)
@@ -85,6 +88,7 @@ def test_mouse_drag_moves_lambda(workbench):
 
 
 def test_reveal_sealed_test_needs_confirmation(workbench):
+    """The sealed test is revealed (and its rows drawn) only after the confirmation box is ticked."""
     page = workbench
     sealed = "() => Bokeh.documents[0].get_model_by_name('sealed_points').data.x.length"
     assert page.evaluate(sealed) == 0
@@ -99,6 +103,7 @@ def test_reveal_sealed_test_needs_confirmation(workbench):
 
 
 def test_bad_upload_shows_message_and_keeps_data(workbench, tmp_path):
+    """A broken upload is named with its row in the status; the curve drawn stays as it was."""
     page = workbench
     bad = tmp_path / "broken.csv"
     bad.write_text("temp,reading\n1,2\n2,n/a\n")
@@ -109,7 +114,19 @@ def test_bad_upload_shows_message_and_keeps_data(workbench, tmp_path):
     np.testing.assert_array_equal(curve(page), before)
 
 
+def test_file_names_in_the_status_stay_plain_text(workbench, tmp_path):
+    """A file name containing markup is shown literally in the status, never rendered as HTML."""
+    page = workbench
+    bad = tmp_path / "run_<b>42<b>_*draft*.csv"
+    bad.write_text("temp,reading\n1,2\n2,n/a\n")
+    page.locator("input[type=file]").set_input_files(str(bad))
+    page.get_by_text("Could not load run_<b>42<b>_*draft*.csv").wait_for(timeout=10000)
+    assert page.locator("b", has_text="42").count() == 0
+    assert page.locator("em", has_text="draft").count() == 0
+
+
 def test_export_downloads_schema_valid_json(workbench, tmp_path):
+    """Export downloads a choice file that matches the schema and records the rule and the file."""
     page = workbench
     page.get_by_role("button", name="Suggest: simplest within 1 SE").click()
     page.wait_for_timeout(500)
@@ -124,6 +141,7 @@ def test_export_downloads_schema_valid_json(workbench, tmp_path):
 
 
 def test_two_pages_are_independent(workbench, context, app_url):
+    """Moving a slider on one page leaves another page's slider and curve alone."""
     first = workbench
     second = context.new_page()
     second.set_viewport_size({"width": 1500, "height": 1100})
@@ -142,6 +160,7 @@ def test_two_pages_are_independent(workbench, context, app_url):
 
 
 def test_report_button_downloads_standalone_html(workbench, tmp_path):
+    """The report button downloads a standalone HTML report with no page-server resources."""
     page = workbench
     with page.expect_download(timeout=60000) as d:
         page.get_by_text("Download report (HTML)").click()

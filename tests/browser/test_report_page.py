@@ -23,6 +23,7 @@ def make(tmp_path):
 
 
 def test_report_opens_offline_and_draws(page, tmp_path, artifacts):
+    """The report opens with the network blocked, draws all eight figures with ink, and logs no console error."""
     choice, out = make(tmp_path)
     errors = []
     page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
@@ -52,6 +53,7 @@ def cli(*args):
 
 
 def test_images_export_as_png_and_svg(tmp_path):
+    """--images writes the eight plots as PNG, or as SVG with --image-format svg."""
     choice, out = make(tmp_path)
     imgs = tmp_path / "img"
     imgs.mkdir()
@@ -64,6 +66,7 @@ def test_images_export_as_png_and_svg(tmp_path):
 
 
 def test_missing_browser_is_a_clear_error(tmp_path, monkeypatch, capsys):
+    """Without chromium on PATH, image export fails with a message saying what is missing."""
     choice, out = make(tmp_path)
     import shutil
 

@@ -7,7 +7,8 @@ import pytest
 
 import core
 from app.cli import main
-from app.state import Workbench
+from app.model import PageModel
+from app.session import Session
 from core.errors import DataError
 from core.statsfile import load_stats, save_stats
 
@@ -40,16 +41,20 @@ def test_cli_engine_folder_and_stats_round_trip(csvs, tmp_path, capsys):
 
 
 def test_page_explores_statistics_without_rows(csvs, tmp_path):
+    """The page model explores a statistics file: CV numbers equal the loaded engine's, folds stay
+    fixed (a new seed is refused in the status), and the choice is fitted from the statistics."""
     stats = tmp_path / "s.json"
     assert main(["sweep", str(csvs), "--x", "1", "--y", "2", "--engine", "local", "--degrees", "0-6",
                  "--folds", "4", "--save-stats", str(stats)]) == 0
-    wb = Workbench(stats=stats)
-    wb.degree, wb.log_lambda = 4, -2.0
+    session = Session()
+    model = PageModel(session, stats=stats)
+    session.degree, session.log_lambda = 4, -2.0
     engine, _ = load_stats(stats)
-    assert wb.out["cv_mse"] == pytest.approx(engine.cv_summary(4, [1e-2])[0][0], rel=1e-12)
-    wb.seed = 5
-    assert "fix the folds" in wb.status
-    doc = wb.choice().to_dict()
+    assert model.out["cv_mse"] == pytest.approx(engine.cv_summary(4, [1e-2])[0][0], rel=1e-12)
+    assert not model.has_rows
+    session.seed = 5
+    assert "fix the folds" in model.status
+    doc = model.choice().to_dict()
     assert doc["validation"]["scheme"] == "hash" and doc["model"]["degree"] == 4
 
 

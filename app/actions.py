@@ -1,0 +1,139 @@
+"""The page's buttons: recommendations, gradient descent, bias/variance, learning curve,
+sealed-test reveal, the choice document and saving it.
+
+``PageActions`` is mixed into ``app.model.PageModel`` and uses only that class's public
+members: ``session``, ``engine``, ``surface``, ``table``, ``stats_meta``, ``display_name``,
+``source_path``, ``out``, ``setting()``, ``has_rows``, ``training_rows()``, ``plan_rows()``,
+and the outputs it sets (``status``, ``version``, ``busy``, ``gd``, ``bias_var``,
+``learning``). Imports param and core only.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import param
+
+import core
+from core.choice import make_choice, rule_of
+from core.errors import CurvewrightError
+from core.table import unit_of
+
+from .session import LOG_LAMBDA_OFF
+
+__all__ = ["PageActions"]
+
+
+class PageActions:
+    """What the page's buttons do (see module docstring)."""
+
+    def recommend(self, rule: str) -> None:
+        """Move the sliders to a rule's recommendation ("min" or "1se")."""
+        rec = self.surface.recommended[rule]
+        s = self.session
+        with param.parameterized.batch_call_watchers(s):
+            s.degree = rec.degree
+            s.log_lambda = LOG_LAMBDA_OFF if rec.lam == 0 else max(LOG_LAMBDA_OFF + 0.01, math.log10(rec.lam))
+        self.status = f"Jumped to the {rule} recommendation: degree {rec.degree}, lambda {rec.lam:.3g}."
+
+    def run_gradient_descent(self) -> None:
+        """Gradient descent from zero coefficients at the current setting (``gd``)."""
+        e = self.engine
+        if e is None:
+            return
+        d, lam = self.setting()
+        s = self.session
+        try:
+            self.gd = core.gradient_descent(e.full, d, lam, learning_rate=s.gd_rate, iterations=s.gd_iterations)
+            self.status = self.gd.message
+        except CurvewrightError as exc:
+            self.status = f"Gradient descent: {exc}"
+        self.version += 1
+
+    def compute_bias_variance(self) -> None:
+        """Expected-error split at the current setting, simulated from the fitted curve (``bias_var``)."""
+        if not self.has_rows or self.engine is None:
+            self.status = "The bias/variance split needs the rows."
+            return
+        from core.uncertainty import bias_variance
+
+        e = self.engine
+        if e.penalty != "ridge":
+            self.status = "The bias/variance split is computed for ridge (its predictions are linear in y)."
+            return
+        d, lam = self.setting()
+        x, _, _ = self.training_rows()
+        self.bias_var = b = bias_variance(x, e.curve(d, lam), self.out["resid_sd"], d, lam, n_sets=300,
+                                          seed=self.session.seed)
+        self.status = (f"Simulated from this fit: bias^2 {b.bias2:.4g} + variance {b.variance:.4g} + noise "
+                       f"{b.noise:.4g} = expected MSE {b.expected_mse:.4g} at new x.")
+        self.version += 1
+
+    def compute_learning_curve(self) -> None:
+        """Learning curve of the current setting (``learning``); needs the rows."""
+        e = self.engine
+        if e is None:
+            return
+        if not self.has_rows:
+            self.status = "A learning curve needs the rows; statistics alone cannot give one."
+            return
+        d, lam = self.setting()
+        x, y, w = self.plan_rows()
+        s = self.session
+        self.busy = True
+        try:
+            self.learning = core.learning_curve(x, y, d, lam, folds=e.plan.k, repeats=2, seed=s.seed,
+                                                weights=w, test_fraction=s.test_fraction)
+        except CurvewrightError as exc:
+            self.status = f"Learning curve: {exc}"
+        finally:
+            self.busy = False
+        self.version += 1
+
+    def reveal_test(self) -> float | None:
+        """Score the sealed test set for the current setting (recorded in the export)."""
+        if self.engine is None or self.engine.n_test == 0:
+            self.status = "No sealed test set: raise the sealed-test fraction first."
+            return None
+        self.surface = self.surface.reveal_test(*self.setting())
+        mse = self.surface.sealed.mse
+        self.status = (f"Sealed test revealed: RMSE {math.sqrt(mse):.6g} on {self.engine.n_test} rows "
+                       "(recorded in the export).")
+        self.version += 1
+        return mse
+
+    def choice(self, notes: str = ""):
+        """The choice document for the current setting (same format as the command line)."""
+        t = self.table
+        d, lam = self.setting()
+        rule = rule_of(self.surface, d, lam)
+        if t is None:      # statistics only: fit from them
+            m = self.stats_meta or {}
+            data = {"file": m.get("file"), "file_sha256": None, "columns_sha256": m.get("columns_sha256", ""),
+                    "rows_dropped": [], "x_column": m.get("x_column") or "x", "y_column": m.get("y_column") or "y",
+                    "x_unit": unit_of(m.get("x_column") or ""), "y_unit": unit_of(m.get("y_column") or "")}
+            return make_choice(None, None, self.surface, d, lam, rule=rule, data=data, notes=notes,
+                               version=core.__version__)
+        x, y, w = self.plan_rows()
+        data = {"file": self.display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
+                "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
+                "x_unit": t.x.unit, "y_unit": t.y.unit, "excluded_rows": list(t.excluded_rows)}
+        return make_choice(x, y, self.surface, d, lam, rule=rule, data=data, weights=w,
+                           weights_column=t.weight_column, notes=notes, version=core.__version__,
+                           group_column=t.group_column, weights_kind=t.weight_kind)
+
+    def save_beside(self, notes: str = "") -> Path | None:
+        """Save the choice next to the data file it was made from (not for uploads)."""
+        src = self.source_path
+        if not src or self.display_name != Path(src).name:
+            self.status = "Only a file opened from disk can be saved beside; use Export for uploads."
+            return None
+        target = Path(src).with_name(Path(src).stem + "_choice.json")
+        try:
+            self.choice(notes).save(target)
+        except CurvewrightError as exc:
+            self.status = f"Not saved: {exc}"
+            return None
+        self.status = f"Saved {target.name} next to the data file."
+        return target
