@@ -1,11 +1,10 @@
-"""The page's buttons: recommendations, gradient descent, bias/variance, learning curve,
+"""The page's buttons: recommendations, bias/variance, learning curve,
 sealed-test reveal, the choice document and saving it.
 
 ``PageActions`` is mixed into ``app.model.PageModel`` and uses only that class's public
 members: ``session``, ``engine``, ``surface``, ``table``, ``stats_meta``, ``display_name``,
 ``source_path``, ``out``, ``setting()``, ``has_rows``, ``training_rows()``, ``plan_rows()``,
-and the outputs it sets (``status``, ``version``, ``busy``, ``gd``, ``bias_var``,
-``learning``). Imports param and core only.
+and the outputs it sets (``status``, ``version``, ``busy``, ``bias_var``, ``learning``). Imports param and core only.
 """
 
 from __future__ import annotations
@@ -29,27 +28,13 @@ class PageActions:
     """What the page's buttons do (see module docstring)."""
 
     def recommend(self, rule: str) -> None:
-        """Move the sliders to a rule's recommendation ("min" or "1se")."""
+        """Move the sliders to a rule's recommendation ("lowest" or "simplest")."""
         rec = self.surface.recommended[rule]
         s = self.session
         with param.parameterized.batch_call_watchers(s):
             s.degree = rec.degree
             s.log_lambda = LOG_LAMBDA_OFF if rec.lam == 0 else max(LOG_LAMBDA_OFF + 0.01, math.log10(rec.lam))
         self.status = f"Jumped to the {rule} recommendation: degree {rec.degree}, lambda {rec.lam:.3g}."
-
-    def run_gradient_descent(self) -> None:
-        """Gradient descent from zero coefficients at the current setting (``gd``)."""
-        e = self.engine
-        if e is None:
-            return
-        d, lam = self.setting()
-        s = self.session
-        try:
-            self.gd = core.gradient_descent(e.full, d, lam, learning_rate=s.gd_rate, iterations=s.gd_iterations)
-            self.status = self.gd.message
-        except CurvewrightError as exc:
-            self.status = f"Gradient descent: {exc}"
-        self.version += 1
 
     def compute_bias_variance(self) -> None:
         """Expected-error split at the current setting, simulated from the fitted curve (``bias_var``)."""
@@ -59,8 +44,9 @@ class PageActions:
         from core.uncertainty import bias_variance
 
         e = self.engine
-        if e.penalty != "ridge":
-            self.status = "The bias/variance split is computed for ridge (its predictions are linear in y)."
+        if e.penalty not in ("ridge", "curvature"):
+            self.status = ("The bias/variance split is computed for ridge and curvature (their predictions are "
+                           "linear in y).")
             return
         d, lam = self.setting()
         x, _, _ = self.training_rows()
@@ -83,8 +69,8 @@ class PageActions:
         s = self.session
         self.busy = True
         try:
-            self.learning = core.learning_curve(x, y, d, lam, folds=e.plan.k, repeats=2, seed=s.seed,
-                                                weights=w, test_fraction=s.test_fraction)
+            self.learning = core.size_curve(x, y, d, lam, folds=e.plan.k, repeats=2, seed=s.seed,
+                                            weights=w, test_fraction=s.test_fraction)
         except CurvewrightError as exc:
             self.status = f"Learning curve: {exc}"
         finally:
@@ -120,8 +106,8 @@ class PageActions:
                 "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
                 "x_unit": t.x.unit, "y_unit": t.y.unit, "excluded_rows": list(t.excluded_rows)}
         return make_choice(x, y, self.surface, d, lam, rule=rule, data=data, weights=w,
-                           weights_column=t.weight_column, notes=notes, version=core.__version__,
-                           group_column=t.group_column, weights_kind=t.weight_kind)
+                           weight_column=t.weight_column, weight_kind=t.weight_kind, notes=notes,
+                           version=core.__version__, groups_from=t.group_column)
 
     def save_beside(self, notes: str = "") -> Path | None:
         """Save the choice next to the data file it was made from (not for uploads)."""

@@ -21,7 +21,7 @@ import numpy as np
 import core
 from core import defaults
 from core.errors import CurvewrightError, DataError, NumericalWarning
-from core.influence import influence
+from core.influence import row_influence
 
 __all__ = ["MAX_SHOWN", "Rows", "training_keep", "row_engine", "surface_for", "loo_engine", "setting_outputs"]
 
@@ -84,7 +84,7 @@ def training_keep(n: int, fraction: float, seed: int) -> np.ndarray:
 
 
 def row_engine(x, y, w, groups, *, folds: int, seed: int, repeats: int, test_fraction: float,
-               penalty: str, mix: float):
+               penalty: str, mix: float, row_keys=None):
     """The engine of rows in memory.
 
     The highest degree held is 30, lowered step by step while the rows cannot
@@ -95,16 +95,16 @@ def row_engine(x, y, w, groups, *, folds: int, seed: int, repeats: int, test_fra
     for top in (defaults.MAX_DEGREE, 20, 15, 10, 5, 2, 1):
         try:
             return core.build_engine(x, y, max_degree=top, folds=folds, seed=seed, weights=w, groups=groups,
-                                     repeats=repeats, test_fraction=test_fraction, penalty=penalty, mix=mix)
+                                     repeats=repeats, test_fraction=test_fraction, penalty=penalty, mix=mix,
+                                     row_keys=row_keys)
         except DataError as exc:
             last = exc
     raise last
 
 
 def surface_for(engine) -> "core.Surface":
-    """The page's surface: the default degrees the engine holds, over the default lambda grid."""
-    return core.surface_from_engine(engine, [d for d in defaults.DEGREES if d <= engine.max_degree],
-                                    defaults.lambda_grid())
+    """The page's surface: the default degrees the engine holds, over the default grid scaled to the data."""
+    return core.surface_from_engine(engine, [d for d in defaults.DEGREES if d <= engine.max_degree])
 
 
 def loo_engine(rows: Rows, max_degree: int):
@@ -127,12 +127,19 @@ def _influential(rows: Rows, degree: int) -> np.ndarray:
         return flagged
     x, y, w = rows.training()
     try:
-        inf = influence(core.fit(x, y, degree, 0.0, weights=w), x, y, w)
+        inf = row_influence(core.fit(x, y, degree, 0.0, weights=w), x, y, w)
     except CurvewrightError:
         return flagged
     big = np.zeros(rows.x.size, dtype=bool)
     big[np.flatnonzero(~rows.sealed)[inf.flagged]] = True
     return big[rows.shown]
+
+
+def lambda_axis(engine) -> np.ndarray:
+    """The positive lambdas drawn on the error-against-lambda plot (the default grid without 0)."""
+    from core.select import default_lambdas
+
+    return default_lambdas(engine, min(engine.max_degree, max(defaults.DEGREES)))[1:]
 
 
 def setting_outputs(engine, rows: Rows, degree: int, lam: float, *, loo=None, band=None,
@@ -160,7 +167,7 @@ def _short_folds(e, d: int) -> list[str]:
 
 
 def _outputs(e, rows: Rows, d: int, lam: float, loo, band, uncertainty: bool) -> dict:
-    ridge = e.penalty == "ridge"
+    ridge = e.penalty in ("ridge", "curvature")      # linear in y: classical bands, GCV, LOO, influence
     curve = e.curve(d, lam)
     grid, shown = rows.grid, rows.shown
     xs, ys = rows.x[shown], rows.y[shown]
@@ -176,11 +183,11 @@ def _outputs(e, rows: Rows, d: int, lam: float, loo, band, uncertainty: bool) ->
     interval = None
     if lam == 0 and ridge:
         fr = core.fit_from_engine(e, d, 0.0)
-        if fr.legendre_cov is not None and fr.df_residual > 0:
-            interval = tuple(fr.predict(grid, interval="prediction", level=0.95)[1:])
+        if fr.legendre_cov is not None and fr.residual_df > 0:
+            interval = tuple(fr.predict(grid, band="reading", coverage=0.95)[1:])
     elif band is not None:
         interval = band
-    lam_axis = defaults.lambda_grid()[1:]
+    lam_axis = lambda_axis(e)
     by_lam = e.cv_summary(d, lam_axis)
     with np.errstate(divide="ignore", invalid="ignore"):
         gcv_axis = (e.train_mse(d, lam_axis) / (1.0 - e.effective_df(d, lam_axis) / n_tr) ** 2 if ridge

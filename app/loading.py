@@ -33,20 +33,20 @@ def columns_of(path) -> list[str]:
     return [str(c) for c in frame.columns]
 
 
-def read_rows(path, x, y, weights: str = "", *, weight_kind: str = "weights", group: str = ""):
+def read_rows(path, x, y, weights: str = "", *, weight_kind: str = "relative", group: str = ""):
     """The file's selected columns as a ``core.table.Table`` (rows with empty cells dropped).
 
     ``weights`` names a column of weights, or of standard uncertainties when
     ``weight_kind`` is "uncertainty" (weights 1/u^2).
     """
-    kind = {"weights": None, "uncertainty": None}
+    kind = {"relative": None, "uncertainty": None}
     if weights:
         kind[weight_kind] = weights
-    return read_table(path, x=x, y=y, weights=kind["weights"], uncertainty=kind["uncertainty"],
-                      group=group or None, missing="drop")
+    return read_table(path, x=x, y=y, weights=kind["relative"], uncertainty=kind["uncertainty"],
+                      group=group or None, blank_rows="skip")
 
 
-def open_rows(path, *, x: str = "", y: str = "", weights: str = "", weight_kind: str = "weights",
+def open_rows(path, *, x: str = "", y: str = "", weights: str = "", weight_kind: str = "relative",
               group: str = ""):
     """(column names, table) of a newly opened file.
 
@@ -96,7 +96,7 @@ def load_statistics(path, *, penalty: str = "ridge", mix: float = 0.5):
 
 
 def stream_statistics(path, *, label: str, x: str = "", y: str = "", weights: str = "",
-                      weight_kind: str = "weights", folds: int = defaults.FOLDS, repeats: int = defaults.REPEATS,
+                      weight_kind: str = "relative", folds: int = defaults.FOLDS, repeats: int = defaults.REPEATS,
                       seed: int = defaults.SEED, test_fraction: float = defaults.TEST_FRACTION,
                       penalty: str = "ridge", mix: float = 0.5, report=None):
     """Stream a large file into the statistics: (engine, data description, closing note).
@@ -117,13 +117,13 @@ def stream_statistics(path, *, label: str, x: str = "", y: str = "", weights: st
         report(done / max(total, 1),
                f"{label}: {done:,} of {total:,} rows, {rate:,.0f} rows/s, {left:.0f} s left")
 
-    w = {"weights": None, "uncertainty": None}
+    w = {"relative": None, "uncertainty": None}
     if weights:
         w[weight_kind] = weights
-    surface, scan = sweep_file(Path(path), list(defaults.DEGREES), defaults.lambda_grid(), x=x or 1, y=y or 2,
-                               weights=w["weights"], uncertainty=w["uncertainty"], folds=folds, repeats=repeats,
+    surface, scan = sweep_file(Path(path), list(defaults.DEGREES), None, x=x or 1, y=y or 2,
+                               weights=w["relative"], uncertainty=w["uncertainty"], folds=folds, repeats=repeats,
                                seed=seed, test_fraction=test_fraction, penalty=penalty, mix=mix,
-                               missing="drop", progress=progress)
+                               blank_rows="skip", progress=progress)
     meta = {"file": label, "x_column": scan.x_name, "y_column": scan.y_name,
             "columns_sha256": scan.columns_sha256}
     note = f"{label}: {scan.rows_used:,} rows streamed into the statistics in {time.perf_counter() - t0:.1f} s"

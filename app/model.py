@@ -3,7 +3,7 @@
 ``PageModel`` watches a session's inputs and keeps what the views display: the
 loaded table (or statistics), the scoring engine and its surface, ``out`` (the
 numbers and curves of the current slider setting), the learning curve, the
-bootstrap band, the bias/variance split, gradient descent, the sealed-test
+bootstrap band, the bias/variance split, the sealed-test
 reveal, and the status text (the buttons' actions are in ``app.actions``). Engines and surfaces are values: a new penalty
 builds a new engine (``with_penalty``) and surface; a reveal replaces the surface
 with the revealed one. Errors from core become the status; earlier results stay.
@@ -55,7 +55,6 @@ class PageModel(PageActions, param.Parameterized):
         self.engine = None
         self.surface = None
         self.learning = None
-        self.gd = None
         self.bias_var = None
         self.out: dict = {}
         self._full_table = None       # before exclusions
@@ -233,7 +232,8 @@ class PageModel(PageActions, param.Parameterized):
                                     None if table.weights is None else table.weights[keep],
                                     None if table.groups is None else table.groups[keep],
                                     folds=s.folds, seed=s.seed, repeats=s.repeats, test_fraction=s.test_fraction,
-                                    penalty=s.penalty, mix=s.mix)
+                                    penalty=s.penalty, mix=s.mix,
+                                    row_keys=None if table.row_numbers is None else table.row_numbers[keep])
                 surface = surface_for(engine)
             rows = Rows.of_table(table, keep, engine.plan.test_mask)
             notes = [str(c.message) for c in caught if issubclass(c.category, NumericalWarning)]
@@ -319,15 +319,15 @@ class PageModel(PageActions, param.Parameterized):
         if not self.has_rows or self.engine is None:
             self.status = "The bootstrap needs the rows."
             return
-        from core.uncertainty import bootstrap_interval
+        from core.uncertainty import bootstrap_band
 
         e = self.engine
         d, lam = self.setting()
         x, y, w = self.training_rows()
         self.busy = True
         try:
-            _, lo, hi = bootstrap_interval(x, y, d, lam, self._rows.grid, B=B, seed=self.session.seed, weights=w,
-                                           penalty=e.penalty, mix=e.mix)
+            _, lo, hi = bootstrap_band(x, y, d, lam, self._rows.grid, B=B, seed=self.session.seed, weights=w,
+                                       penalty=e.penalty, mix=e.mix)
             self._boot = ((d, lam, e.penalty, e.mix), (lo, hi))
             self.status = f"Bootstrap prediction band from {B} refits (95%, percentile, resampled rows)."
         except CurvewrightError as exc:

@@ -122,16 +122,6 @@ def make_complexity_figures():
     return (fd, fl, fh), src, mapper
 
 
-def make_gd_figure():
-    src = ColumnDataSource({"step": [], "cost": []}, name="gd_cost")
-    ref = ColumnDataSource({"step": [], "cost": []}, name="gd_closed_form")
-    f = _fig("Gradient descent: cost per step", "step", "cost J", y_axis_type="log")
-    f.line("step", "cost", source=src, color=TRAIN_LINE, line_width=2, legend_label="gradient descent")
-    f.line("step", "cost", source=ref, color=CV_LINE, line_dash="dashed", line_width=2, legend_label="closed form")
-    f.legend.location = "top_right"
-    return f, src, ref
-
-
 def make_learning_figure():
     src = ColumnDataSource({"n": [], "cv": [], "train": [], "cv_lo": [], "cv_hi": [], "tr_lo": [], "tr_hi": []},
                            name="learning_curve")
@@ -216,7 +206,6 @@ class FigureSet:
         (self.rx, self.ry, self.rh), self.res_src, self.res_lines = make_residual_figures(x_label, y_label)
         (self.fd, self.fl, self.fh), self.cx_src, _ = make_complexity_figures()
         self.lc_fig, self.lc_src = make_learning_figure()
-        self.gd_fig, self.gd_src, self.gd_ref = make_gd_figure()
 
     def update_data(self, model) -> None:
         """Parts that change only with new statistics: heat map, axis labels (``model``: a
@@ -272,9 +261,3 @@ class FigureSet:
         self.cx_src["lam_rec"].data = {"x": [max(r.lam, 10 ** LOG_LAMBDA_OFF) for r in here],
                                        "y": [r.cv_mse for r in here], "rule": [r.rule for r in here]}
         self.lc_src.data = learning_columns(model.learning)
-        gd = model.gd
-        if gd is not None:
-            ok = np.isfinite(gd.cost) & (gd.cost > 0)
-            steps = np.flatnonzero(ok)
-            self.gd_src.data = {"step": steps, "cost": gd.cost[ok]}
-            self.gd_ref.data = {"step": [0, max(len(gd.cost) - 1, 1)], "cost": [gd.closed_form_cost] * 2}

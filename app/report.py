@@ -20,7 +20,7 @@ from bokeh.resources import INLINE
 import core
 from core.choice import Choice
 from core.errors import DataError, message
-from core.influence import influence
+from core.influence import row_influence
 
 from . import plots
 from .model import PageModel
@@ -46,8 +46,9 @@ def _model_for(choice: Choice, data_path) -> PageModel:
                                 "'explicit'", "Explicit fold columns are not re-read by the report yet"))
     session = Session(folds=v["k"], seed=v["seed"], test_fraction=v["sealed_test"]["fraction"],
                       repeats=v["repeats"], x_column=d["x_column"], y_column=d["y_column"],
-                      weight_column=m["weights_column"] or "", weight_kind=m.get("weights_kind") or "weights",
-                      group_column=v.get("group_column") or "", penalty=m.get("penalty", "ridge"),
+                      weight_column=m["weighting"]["column"] or "",
+                      weight_kind=m["weighting"]["kind"] or "relative",
+                      group_column=v.get("groups_from") or "", penalty=m.get("penalty", "ridge"),
                       mix=max(0.05, m.get("mix") or 0.5),
                       exclude=", ".join(map(str, d.get("excluded_rows", []))))
     model = PageModel(session)
@@ -105,20 +106,20 @@ def build_report(choice: Choice, data_path) -> str:
     if m["lambda"] == 0:
         x_tr, y_tr, w = model.training_rows()
         fit = core.fit(x_tr, y_tr, m["degree"], 0.0, weights=w, intercept=m["intercept"])
-        infl = influence(fit, x_tr, y_tr, w)
+        infl = row_influence(fit, x_tr, y_tr, w)
 
     cv_rmse, se = v["cv_rmse"], v["cv_mse_se"]
     se_rmse = se / (2 * cv_rmse) if se is not None and cv_rmse > 0 else None
     st = v["sealed_test"]
-    coef_rows = "".join(f"<tr><td>{html.escape(c['term'])}</td><td data-field='coef'>{c['estimate']:.12g}</td>"
-                        f"<td>{_f(c['std_error'], 6)}</td></tr>" for c in m["power_coefficients"])
+    coef_rows = "".join(f"<tr><td>x<sup>{int(c['power'])}</sup></td><td data-field='coef'>{c['value']:.12g}</td>"
+                        f"<td>{_f(c['standard_error'], 6)}</td></tr>" for c in m["power_coefficients"])
     leg_rows = "".join(f"<tr><td>P<sub>{j}</sub>(t)</td><td>{c:.15g}</td></tr>"
                        for j, c in enumerate(m["legendre_coefficients"]))
     width_html = ""
-    if choice.has_interval:
+    if choice.has_band:
         xs = np.linspace(*d["x_range"], 7)
-        _, lo, hi = choice.predict(xs, interval="prediction")
-        width_html = ("<h3>How wide is the uncertainty?</h3><p>Width of the 95% prediction interval "
+        _, lo, hi = choice.predict(xs, band="reading")
+        width_html = ("<h3>How wide is the uncertainty?</h3><p>Width of the 95% band for one new reading "
                       "(where a new single measurement is expected to fall) across the fitted range:</p>"
                       "<table><tr><th>x</th>" + "".join(f"<td>{a:.4g}</td>" for a in xs) + "</tr><tr><th>width</th>"
                       + "".join(f"<td>{b:.4g}</td>" for b in hi - lo) + "</tr></table>")
@@ -130,7 +131,7 @@ def build_report(choice: Choice, data_path) -> str:
                    if st["revealed"] else
                    f"Sealed test set: {st['n']} rows set aside; not revealed before export.")
     notices = _notices(choice, model, infl)
-    reading = core.describe_learning_curve(model.learning) if model.learning is not None else ""
+    reading = model.learning.reading() if model.learning is not None else ""
     units = f" {d['y_unit']}" if d["y_unit"] else ""
     head = f"""
 <h1>Curve report: {html.escape(d['y_column'])} against {html.escape(d['x_column'])}</h1>
@@ -150,7 +151,7 @@ parameters. {html.escape(reading)}</p>
     tables = f"""
 <h2>Coefficients</h2>
 <p>Raw-x power form: y = a0 + a1 x + ... (standard errors at lambda = 0 only).</p>
-<table border="1" cellpadding="4" style="border-collapse:collapse"><tr><th>term</th><th>estimate</th><th>std. error</th></tr>{coef_rows}</table>
+<table border="1" cellpadding="4" style="border-collapse:collapse"><tr><th>power</th><th>value</th><th>standard error</th></tr>{coef_rows}</table>
 <p>Stable form used for every prediction: y = sum c<sub>j</sub> P<sub>j</sub>(t), t = (x - {m['domain']['center']!r}) / {m['domain']['half_width']!r}.</p>
 <table border="1" cellpadding="4" style="border-collapse:collapse">{leg_rows}</table>
 {width_html}

@@ -36,15 +36,14 @@ class Session(param.Parameterized):
     x_column = param.String("")
     y_column = param.String("")
     weight_column = param.String("")
-    weight_kind = param.Selector(default="weights", objects=["weights", "uncertainty"],
-                                 doc="the weight column holds weights, or standard uncertainties (w = 1/u^2)")
+    weight_kind = param.Selector(default="relative", objects=["relative", "uncertainty"],
+                                 doc="the weight column holds relative weights, or standard uncertainties "
+                                     "(w = 1/u^2)")
     group_column = param.String("", doc="rows sharing a value stay in one fold")
     repeats = param.Integer(defaults.REPEATS, bounds=(1, 20))
-    penalty = param.Selector(default="ridge", objects=["ridge", "lasso", "elastic"])
+    penalty = param.Selector(default=defaults.PENALTY, objects=["curvature", "ridge", "lasso", "elastic"])
     mix = param.Number(0.5, bounds=(0.05, 1.0), step=0.05, doc="elastic net: share of the L1 term")
     exclude = param.String("", doc="spreadsheet rows left out on request, e.g. '7, 19' (recorded)")
-    gd_rate = param.Number(0.5, bounds=(1e-6, 10.0), doc="gradient-descent learning rate")
-    gd_iterations = param.Integer(500, bounds=(1, 100000))
 
     @property
     def lam(self) -> float:

@@ -46,8 +46,6 @@ class Workspace(param.Parameterized):
         self.figs = f = plots.FigureSet(xl or "x", yl or "y")
         self.fit_fig, self.rx, self.ry, self.rh = f.fit_fig, f.rx, f.ry, f.rh
         self.fd, self.fl, self.fh, self.lc_fig = f.fd, f.fl, f.fh, f.lc_fig
-        self.gd_text = pn.pane.Markdown("Set a learning rate and press *Run gradient descent*: it starts from "
-                                        "zero coefficients and should settle on the closed-form cost.")
         self.status = pn.pane.Alert("", alert_type="light", sizing_mode="stretch_width", name="status")
         self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
         self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
@@ -83,9 +81,9 @@ class Workspace(param.Parameterized):
         self.apply_cols.on_click(lambda e: self._safe(lambda: m.select_columns(self.xcol.value, self.ycol.value,
                                                                                   self.wcol.value)))
         self.rec_min = pn.widgets.Button(label="Suggest: lowest CV error", color="primary")
-        self.rec_1se = pn.widgets.Button(label="Suggest: simplest within 1 SE", color="primary")
-        self.rec_min.on_click(lambda e: self._safe(lambda: m.recommend("min")))
-        self.rec_1se.on_click(lambda e: self._safe(lambda: m.recommend("1se")))
+        self.rec_1se = pn.widgets.Button(label="Suggest: simplest within one SE", color="primary")
+        self.rec_min.on_click(lambda e: self._safe(lambda: m.recommend("lowest")))
+        self.rec_1se.on_click(lambda e: self._safe(lambda: m.recommend("simplest")))
         self.lc_button = pn.widgets.Button(label="Learning curve", color="default")
         self.lc_button.on_click(lambda e: self._safe(m.compute_learning_curve))
         self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning")
@@ -110,10 +108,6 @@ class Workspace(param.Parameterized):
         self.boot.on_click(lambda e: self._safe(m.bootstrap_band))
         self.bv = pn.widgets.Button(label="Bias / variance split", color="default")
         self.bv.on_click(lambda e: self._safe(m.compute_bias_variance))
-        self.gd_rate = pn.widgets.FloatInput.from_param(s.param.gd_rate, label="Learning rate", width=120)
-        self.gd_iter = pn.widgets.IntInput.from_param(s.param.gd_iterations, label="Steps", width=120)
-        self.gd_run = pn.widgets.Button(label="Run gradient descent", color="primary")
-        self.gd_run.on_click(lambda e: self._safe(m.run_gradient_descent))
         self.progress = pn.indicators.Progress(value=0, max=1000, visible=False, sizing_mode="stretch_width",
                                                name="progress")
         self.progress_text = pn.pane.Str("", visible=False)
@@ -217,12 +211,9 @@ class Workspace(param.Parameterized):
         self.figs.update(m, show_sealed=m.surface is not None and m.surface.test_revealed)
         if m.learning is not None:
             self.lc_text.object = (f"**Reading (guidance, not certainty):** "
-                                   f"{core.describe_learning_curve(m.learning)}  \n"
+                                   f"{m.learning.reading()}  \n"
                                    f"Computed for degree {m.learning.degree}, lambda {_fmt(m.learning.lam, 3)}.")
         self.numbers.object = self._numbers_md(m.out)
-        if m.gd is not None:
-            self.gd_text.object = ("**" + m.gd.message + "**" +
-                                   (f"  \nLargest stable rate for this design: about {m.gd.max_stable_rate:.3g}."))
 
     def _numbers_md(self, out) -> str:
         m = self.model
@@ -291,11 +282,9 @@ class Workspace(param.Parameterized):
         cx_tab = pn.Column(pn.Row(self.fd, self.fl, sizing_mode="stretch_width"), self.fh,
                            sizing_mode="stretch_width")
         lc_tab = pn.Column(self.lc_fig, self.lc_text, sizing_mode="stretch_width")
-        gd_tab = pn.Column(pn.Row(self.gd_rate, self.gd_iter, self.gd_run), self.figs.gd_fig, self.gd_text,
-                           sizing_mode="stretch_width")
         help_tab = pn.pane.Markdown(HELP, sizing_mode="stretch_width")
         tabs = pn.Tabs(("Curve & residuals", curve_tab), ("Error vs flexibility", cx_tab),
-                       ("Learning curve", lc_tab), ("Gradient descent", gd_tab), ("How to read this", help_tab),
+                       ("Learning curve", lc_tab), ("How to read this", help_tab),
                        dynamic=False, sizing_mode="stretch_width")
         header = pn.Row(pn.pane.Markdown("## curvewright · how flexible may this curve be?",
                                          styles={"color": plots.INK}), self.busy, sizing_mode="stretch_width")

@@ -9,9 +9,9 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["MAX_DEGREE", "DEGREES", "PENALTY", "LAMBDA_PER_DECADE", "LAMBDA_MARGIN", "LAMBDA_RANGE",
-           "LAMBDA_COUNT", "FOLDS", "REPEATS", "SEED",
+           "FOLDS", "REPEATS", "SEED",
            "TEST_FRACTION", "STREAM_BYTES", "CHUNK_ROWS", "LEARN_SIZES", "LEARN_REPEATS",
-           "BOOTSTRAP_B", "COVERAGE", "MAX_GRID", "MAX_CELLS", "lambda_grid"]
+           "BOOTSTRAP_B", "COVERAGE", "MAX_GRID", "MAX_CELLS"]
 
 MAX_DEGREE = 30                  # highest polynomial degree anywhere
 DEGREES = tuple(range(0, 16))    # degrees searched by default
@@ -21,8 +21,7 @@ PENALTY = "curvature"            # the command line's and the page's penalty (th
 # less than 1/LAMBDA_MARGIN of every penalized component, LAMBDA_PER_DECADE points per decade.
 LAMBDA_PER_DECADE = 3
 LAMBDA_MARGIN = 1e3
-LAMBDA_RANGE = (1e-8, 1e6)       # a fixed grid for statistics without a usable scale (and the lasso floor)
-LAMBDA_COUNT = 29
+LAMBDA_RANGE = (1e-8, 1e6)       # the positive range when the data give no usable scale
 FOLDS = 10
 REPEATS = 1
 SEED = 0
@@ -35,9 +34,3 @@ BOOTSTRAP_B = 399
 COVERAGE = 0.95
 MAX_GRID = 1000                  # longest lambda grid accepted
 MAX_CELLS = 1_000_000            # folds x repeats x degrees x lambdas scored in one sweep
-
-
-def lambda_grid() -> np.ndarray:
-    """The default grid: 0 (least squares), then LAMBDA_COUNT log-spaced values over LAMBDA_RANGE."""
-    lo, hi = LAMBDA_RANGE
-    return np.concatenate([[0.0], np.logspace(np.log10(lo), np.log10(hi), LAMBDA_COUNT)])

@@ -33,7 +33,7 @@ from .params import check, combination
 from .batch import FoldBatch, solve_sets
 from .solve import FoldSolver
 
-__all__ = ["ScoringEngine", "FoldEngine", "engine_from_moments", "fold_mean_se", "OwnDomain"]
+__all__ = ["ScoringEngine", "FoldEngine", "engine_from_moments", "fold_mean_se", "OwnDomain", "nanmean_folds"]
 
 
 @dataclass(frozen=True)
@@ -76,6 +76,15 @@ def fold_mean_se(cv: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         return np.nanmean(cv, axis=0), np.nanstd(cv, axis=0, ddof=1) / np.sqrt(F)
+
+
+def nanmean_folds(a: np.ndarray) -> np.ndarray:
+    """Mean over axis 0 ignoring NaN (a degree left out for a penalty gives NaN, without a warning)."""
+    if np.isfinite(a).all():
+        return a.mean(axis=0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        return np.nanmean(a, axis=0)
 
 
 class ScoringEngine(ABC):
@@ -141,7 +150,7 @@ class ScoringEngine(ABC):
         """(mean CV MSE, its SE, mean training MSE), each of shape (len(lams),)."""
         cv, tr = self.scores(degree, lams)
         mean, se = fold_mean_se(cv)
-        return mean, se, tr.mean(axis=0) if np.isfinite(tr).all() else np.nanmean(tr, axis=0)
+        return mean, se, nanmean_folds(tr)
 
     def cv_mean(self, degree: int, lam: float) -> float:
         """Mean CV MSE of one configuration."""

@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from .engine import ScoringEngine, fold_mean_se
+from .engine import ScoringEngine, fold_mean_se, nanmean_folds
 from .errors import DataError, ParameterError, message
 from .params import check
 
@@ -243,7 +243,7 @@ def surface_from_engine(engine: ScoringEngine, degrees, lambdas=None) -> Surface
         c, t = engine.scores(d, lams)
         fold[i] = c.T
         cv[i], se[i] = fold_mean_se(c)
-        tr[i] = t.mean(axis=0) if np.isfinite(t).all() else np.nanmean(t, axis=0)
+        tr[i] = nanmean_folds(t)
         edf[i] = engine.effective_df(d, lams)
         # generalized cross-validation (Golub, Heath & Wahba 1979) on all training rows
         with np.errstate(divide="ignore", invalid="ignore"):

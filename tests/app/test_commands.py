@@ -16,7 +16,7 @@ PONTIUS = ROOT / "tests" / "reference" / "nist_strd" / "Pontius.csv"
 MAX_LINES = 400
 
 # Modules over the limit today. They are being split; each may shrink but not grow past its count.
-OVER_LIMIT = {"app/state.py": 566}
+OVER_LIMIT: dict = {}
 
 
 def fit_args(data, *extra):

@@ -21,9 +21,22 @@ FURNACE = ROOT / "sample_sets" / "furnace_yield.csv"
 
 @pytest.fixture
 def page():
-    """(session, model) on the invented furnace data set."""
-    s = Session()
+    """(session, model) on the invented furnace data set, scored with ridge (compared with core's defaults)."""
+    s = Session(penalty="ridge")
     return s, PageModel(s, FURNACE)
+
+
+def test_default_penalty_is_curvature_and_equals_core_fit():
+    """The page opens with the curvature penalty; its curve is core.fit's curvature fit on the training rows,
+    over the sweep's domain (the integral's range)."""
+    s = Session()
+    m = PageModel(s, FURNACE)
+    assert s.penalty == "curvature" and m.engine.penalty == "curvature"
+    x, y, _ = m.training_rows()
+    for d, loglam in ((3, -2.0), (7, 0.0)):
+        s.degree, s.log_lambda = d, loglam
+        ref = core.fit(x, y, d, 10 ** loglam, penalty="curvature", domain=m.engine.domain)
+        np.testing.assert_allclose(m.out["curve"], ref.predict(m.out["grid"]), rtol=1e-9)
 
 
 def test_curve_equals_core_fit_on_training_rows(page):
@@ -43,7 +56,7 @@ def test_cv_numbers_equal_core_sweep(page):
     s.degree, s.log_lambda = 4, -2.0
     t = m.table
     ref = core.sweep(t.x.values, t.y.values, [4], [1e-2], folds=s.folds, seed=s.seed,
-                     test_fraction=s.test_fraction)
+                     test_fraction=s.test_fraction, row_keys=t.row_numbers)
     assert m.out["cv_mse"] == pytest.approx(ref.cv_mse[0, 0], rel=1e-12)
     assert m.out["cv_mse_se"] == pytest.approx(ref.cv_mse_se[0, 0], rel=1e-12)
 
@@ -60,8 +73,8 @@ def test_lambda_slider_left_end_is_exactly_zero(page):
 def test_recommend_jumps_to_the_rule(page):
     """A suggestion button moves degree and lambda to the surface's recommendation."""
     s, m = page
-    m.recommend("1se")
-    rec = m.surface.recommended["1se"]
+    m.recommend("simplest")
+    rec = m.surface.recommended["simplest"]
     assert s.degree == rec.degree and s.lam == pytest.approx(rec.lam, rel=1e-12)
     assert m.out["degree"] == rec.degree
 
@@ -112,7 +125,7 @@ def test_reveal_is_recorded_in_the_export(page):
 def test_export_validates_and_predicts_like_the_fit(page, tmp_path):
     """The exported JSON matches the shipped schema; loaded back it predicts like core.fit."""
     s, m = page
-    m.recommend("min")
+    m.recommend("lowest")
     c = m.choice()
     jsonschema.validate(json.loads(c.to_json()), SCHEMA)
     x, y, _ = m.training_rows()
@@ -121,7 +134,7 @@ def test_export_validates_and_predicts_like_the_fit(page, tmp_path):
     loaded = Choice.load(path)
     grid = np.linspace(600, 950, 101)
     assert np.array_equal(loaded.predict(grid), ref.predict(grid))
-    assert c.doc["validation"]["rule"] == "min"
+    assert c.doc["validation"]["rule"] == "lowest"
     assert c.doc["validation"]["cv_rmse"] == pytest.approx(math.sqrt(m.out["cv_mse"]))
 
 
@@ -154,7 +167,7 @@ def test_penalty_switch_builds_new_engines_and_leaves_the_first_alone(page):
 
     def sweep(penalty):
         return core.sweep(t.x.values, t.y.values, [3], [0.1], folds=s.folds, seed=s.seed,
-                          test_fraction=s.test_fraction, penalty=penalty)
+                          test_fraction=s.test_fraction, penalty=penalty, row_keys=t.row_numbers)
 
     ridge_cv = m.out["cv_mse"]
     assert ridge_cv == pytest.approx(sweep("ridge").cv_mse[0, 0], rel=1e-12)
@@ -176,7 +189,7 @@ def test_interval_band_at_lambda_zero_equals_core(page):
     s, m = page
     s.log_lambda = LOG_LAMBDA_OFF
     x, y, _ = m.training_rows()
-    _, lo, hi = core.fit(x, y, s.degree, 0.0).predict(m.out["grid"], interval="prediction")
+    _, lo, hi = core.fit(x, y, s.degree, 0.0).predict(m.out["grid"], band="reading")
     np.testing.assert_allclose(m.out["interval"][0], lo, rtol=1e-9)
     np.testing.assert_allclose(m.out["interval"][1], hi, rtol=1e-9)
     assert m.out["influential"].any()
@@ -191,27 +204,26 @@ def test_excluded_rows_are_recorded(page):
     assert "Could not exclude row 999" in m.status
 
 
-def test_bootstrap_band_and_gradient_descent_from_the_page(page):
-    """The bootstrap band is shown for its setting; gradient descent settles on the closed form,
-    and a too-large rate is reported as such."""
+def test_bootstrap_band_belongs_to_its_setting(page):
+    """The bootstrap band is shown for the setting it was computed for and cleared when the setting moves;
+    it equals core.uncertainty.bootstrap_band on the training rows with the page's seed."""
+    from core.uncertainty import bootstrap_band
+
     s, m = page
     s.degree, s.log_lambda = 2, 0.0
     assert m.out["interval"] is None
     m.bootstrap_band(B=60)
     lo, hi = m.out["interval"]
-    assert np.all(hi > lo)
-    s.degree, s.gd_rate, s.gd_iterations = 1, 0.9, 3000
+    x, y, w = m.training_rows()
+    _, rlo, rhi = bootstrap_band(x, y, 2, 1.0, m.out["grid"], B=60, seed=s.seed, weights=w)
+    np.testing.assert_allclose(lo, rlo, rtol=1e-12)
+    s.degree = 1
     assert m.out["interval"] is None                    # the band belongs to degree 2
-    m.run_gradient_descent()
-    assert not m.gd.diverged and m.gd.cost[-1] == pytest.approx(m.gd.closed_form_cost, rel=1e-8)
-    s.gd_rate = 5.0
-    m.run_gradient_descent()
-    assert m.gd.diverged and "too large" in m.status
 
 
 def test_loo_gcv_and_reduced_chi_square_in_the_page():
     """Invented thermistor set with standard uncertainties: the page's reduced chi-square equals
-    core.fit's, its LOO equals core.sweep(folds='loo') on the same rows."""
+    core.fit's, its LOO equals core.sweep(folds='loo') on the same rows, its GCV the closed form."""
     s = Session(weight_kind="uncertainty", weight_column="u_resistance [ohm]")
     m = PageModel(s, ROOT / "sample_sets" / "thermistor_bench.csv")
     s.degree, s.log_lambda = 6, LOG_LAMBDA_OFF
@@ -220,7 +232,9 @@ def test_loo_gcv_and_reduced_chi_square_in_the_page():
     assert m.out["reduced_chi_square"] == pytest.approx(core.fit(x, y, 6, weights=w).reduced_chi_square, rel=1e-8)
     loo = core.sweep(x, y, [6], [0.0], folds="loo", weights=w)
     assert m.out["loo_mse"] == pytest.approx(loo.cv_mse[0, 0], rel=1e-9)
-    assert m.out["gcv_mse"] > 0
+    ref = core.fit(x, y, 6, 0.0, weights=w)
+    # GCV (Golub, Heath & Wahba 1979): (SSE/W) / (1 - df/n)^2 with df = 7 coefficients at lambda = 0
+    assert m.out["gcv_mse"] == pytest.approx(ref.train_mse / (1 - 7 / x.size) ** 2, rel=1e-9)
 
 
 def test_large_file_streams_into_statistics_with_progress(tmp_path, monkeypatch):
@@ -242,7 +256,8 @@ def test_large_file_streams_into_statistics_with_progress(tmp_path, monkeypatch)
     assert any("rows/s" in t and "left" in t for t in seen) and "streamed into the statistics" in m.progress_text
     assert not m.has_rows and m.training_rows()[0].size == 0
     s.degree, s.log_lambda = 4, -2.0
-    ref, _ = sweep_file(p, range(0, 16), [1e-2], x=1, y=2, folds=10, seed=0, test_fraction=0.2)
+    ref, _ = sweep_file(p, range(0, 16), [1e-2], x=1, y=2, folds=10, seed=0, test_fraction=0.2,
+                        penalty="curvature")
     assert m.out["cv_mse"] == pytest.approx(ref.engine.cv_summary(4, [1e-2])[0][0], rel=1e-12)
     assert m.choice().doc["data"]["x_column"] == "t [s]"
 

@@ -36,7 +36,7 @@ def test_report_numbers_equal_the_choice(made):
     assert float(field(html, "lambda")[0]) == doc["model"]["lambda"]
     assert float(field(html, "cv_rmse")[0]) == pytest.approx(doc["validation"]["cv_rmse"], rel=1e-9)
     coefs = [float(v) for v in field(html, "coef")]
-    assert coefs == pytest.approx([c["estimate"] for c in doc["model"]["power_coefficients"]], rel=1e-11)
+    assert coefs == pytest.approx([c["value"] for c in doc["model"]["power_coefficients"]], rel=1e-11)
     assert doc["data"]["columns_sha256"] in html and "Local codes, standards" in html
     assert "prediction interval" in html
     assert "https://cdn" not in re.sub(r"<script[^>]*>.*?</script>", "", html, flags=re.S)  # JS inlined
@@ -91,7 +91,7 @@ def test_report_of_a_page_choice_rederives_it_through_the_page_model(tmp_path):
     assert choice.doc["model"]["penalty"] == "lasso"
     t = m.table
     ref = core.sweep(t.x.values, t.y.values, [3], [0.1], folds=s.folds, seed=s.seed,
-                     test_fraction=s.test_fraction, penalty="lasso")
+                     test_fraction=s.test_fraction, penalty="lasso", row_keys=t.row_numbers)
     assert choice.doc["validation"]["cv_mse"] == pytest.approx(ref.cv_mse[0, 0], rel=1e-9)
     html = build_report(choice, DATA)
     assert float(field(html, "cv_rmse")[0]) == pytest.approx(choice.doc["validation"]["cv_rmse"], rel=1e-9)

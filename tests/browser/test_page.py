@@ -35,8 +35,9 @@ def wait_curve_change(page, before, timeout=10):
 
 def expected_curve(page, degree, lam):
     """core.fit on the page's training rows (same seed, folds, sealed fraction), at the page's x grid."""
-    x, y, _ = PageModel(Session(), SAMPLE).training_rows()
-    fit = core.fit(x, y, degree, lam)
+    m = PageModel(Session(), SAMPLE)
+    x, y, _ = m.training_rows()
+    fit = core.fit(x, y, degree, lam, penalty=m.engine.penalty, domain=m.engine.domain)
     return fit.predict(np.array(page.evaluate(CURVE_X)))
 
 
@@ -48,7 +49,7 @@ def test_page_loads_with_caution_and_screenshot(workbench, artifacts):
     """The page opens with the caution and the suggestion buttons; a full-page screenshot is kept."""
     page = workbench
     assert page.get_by_text("Local codes, standards and licensed professional practice govern").count() == 1
-    assert page.get_by_text("Suggest: simplest within 1 SE").count() == 1
+    assert page.get_by_text("Suggest: simplest within one SE").count() == 1
     page.screenshot(path=str(artifacts / "workbench.png"), full_page=True)
     assert (artifacts / "workbench.png").stat().st_size > 10_000
 
@@ -128,7 +129,7 @@ def test_file_names_in_the_status_stay_plain_text(workbench, tmp_path):
 def test_export_downloads_schema_valid_json(workbench, tmp_path):
     """Export downloads a choice file that matches the schema and records the rule and the file."""
     page = workbench
-    page.get_by_role("button", name="Suggest: simplest within 1 SE").click()
+    page.get_by_role("button", name="Suggest: simplest within one SE").click()
     page.wait_for_timeout(500)
     with page.expect_download() as d:
         page.get_by_text("Export choice (JSON)").click()
@@ -136,7 +137,7 @@ def test_export_downloads_schema_valid_json(workbench, tmp_path):
     d.value.save_as(path)
     doc = json.loads(path.read_text())
     jsonschema.validate(doc, SCHEMA)
-    assert doc["validation"]["rule"] == "1se"
+    assert doc["validation"]["rule"] == "simplest"
     assert doc["data"]["file"] == "furnace_yield.csv"
 
 

@@ -49,7 +49,7 @@ def test_page_explores_statistics_without_rows(csvs, tmp_path):
     session = Session()
     model = PageModel(session, stats=stats)
     session.degree, session.log_lambda = 4, -2.0
-    engine, _ = load_stats(stats)
+    engine, _ = load_stats(stats, penalty=session.penalty)
     assert model.out["cv_mse"] == pytest.approx(engine.cv_summary(4, [1e-2])[0][0], rel=1e-12)
     assert not model.has_rows
     session.seed = 5
