@@ -15,7 +15,7 @@ from pathlib import Path
 import param
 
 import core
-from core.choice import make_choice, rule_of
+from core.choice_build import make_choice, rule_of
 from core.errors import CurvewrightError
 from core.table import unit_of
 

@@ -3,6 +3,7 @@ learning curves and recommendations. Imports numpy, scipy and mpmath only (never
 
 from .basis import Domain
 from .choice import Choice
+from . import choice_build
 from .crossval import build_engine, sweep
 from .curve import Curve
 from .curves import SizeCurve, size_curve

@@ -26,9 +26,9 @@ from .choice_schema import FORMAT, VERSION, schema
 from .curve import Curve
 from .errors import DataError, message
 from .files import write_atomic
-from .fit import band_limits
+from .bands import ReadingModel, band_limits
 
-__all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION", "build_choice", "make_choice", "rule_of", "score"]
+__all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION"]
 
 SCHEMA = schema()
 
@@ -126,55 +126,71 @@ class Choice:
         """Whether the file carries what a band needs (the coefficient covariance)."""
         return self.doc["model"]["uncertainty"] is not None
 
-    def predict(self, x, band: str | None = None, coverage: float = 0.95):
+    @property
+    def reading(self) -> ReadingModel | None:
+        """What a reading band assumes (None without a covariance)."""
+        u = self.doc["model"]["uncertainty"]
+        return None if u is None else ReadingModel.from_dict(u["reading"])
+
+    def band_label(self) -> str:
+        """How the saved covariance was obtained, in words."""
+        u = self.doc["model"]["uncertainty"]
+        if u is None:
+            return "no band"
+        if u["method"] == "bootstrap":
+            return f"bootstrap, {u['bootstrap']['refits']} refits, seed {u['bootstrap']['seed']}"
+        if u["method"] == "smoother":
+            return "linear-smoother covariance from the statistics"
+        return "classical"
+
+    def predict(self, x, band: str | None = None, coverage: float = 0.95, *, reading_u=None,
+                reading_weight=None):
         """Predictions at raw x from the stable form (bit-identical to the fit's).
 
-        ``band`` ("curve": where the curve lies; "reading": where one new reading lies)
-        is available for choices that store the coefficient covariance; returns
-        (prediction, low, high).
+        ``band`` ("curve": where the curve lies; "reading": where one new reading lies) uses the
+        stored covariance (classical, or bootstrap for penalized curves) and what the file says
+        about a new reading (``core.bands``); returns (prediction, low, high).
         """
         yhat = self.curve(x)
         if band is None:
             return yhat
-        t = self.domain.map(np.asarray(x, dtype=float))
+        x = np.asarray(x, dtype=float)
         u = self.doc["model"]["uncertainty"]
         cov = None if u is None else np.array(u["legendre_covariance"], dtype=float)
-        sd = None if u is None else u["residual_sd"]
-        df = None if u is None else u["residual_df"]
-        return (yhat, *band_limits(yhat, t, cov, sd, df, band, coverage))
+        reading = self.reading or ReadingModel()
+        return (yhat, *band_limits(yhat, self.domain.map(x), cov, reading, band, coverage, x=x,
+                                   reading_u=reading_u, reading_weight=reading_weight))
 
     def to_sklearn(self):
-        """A fitted scikit-learn Pipeline predicting the same curve.
+        """A fitted scikit-learn Pipeline predicting the same curve from raw x.
 
-        ``PolynomialFeatures(d, include_bias=False) -> StandardScaler -> Ridge``
-        with the scaler set to the identity and the ridge holding the raw-x power
-        coefficients, so it evaluates a0 + a1 x + ... + ad x^d. Raw powers round
-        for x far from zero or high degree, so agreement with ``predict`` is to
-        float rounding of that power form, not bit for bit.
+        ``StandardScaler`` (mean = the domain's center, scale = its half width, so it maps x onto
+        t) -> ``PolynomialFeatures(d, include_bias=False)`` -> ``Ridge`` holding the coefficients of
+        the centred power form, whose terms stay modest for any data range (the raw-x power form can
+        lose most of its digits, e.g. for time stamps). Refused when even the centred form keeps fewer
+        than 10 significant digits over the data range (``model.power_form``).
         """
         from sklearn.linear_model import Ridge
         from sklearn.pipeline import Pipeline
         from sklearn.preprocessing import PolynomialFeatures, StandardScaler
 
         m = self.doc["model"]
-        d = m["degree"]
-        a = np.zeros(d + 1)
-        for row in m["power_coefficients"]:
-            a[row["power"]] = row["value"]
-        X0 = np.zeros((1, 1))
-        poly = PolynomialFeatures(max(d, 1), include_bias=False).fit(X0)
-        n_feat = max(d, 1)
+        cf = m["power_form"]["centred"]
+        if cf["digits"] < 10:
+            raise DataError(message("Conversion to a scikit-learn pipeline", "a form keeping 10 significant digits",
+                                    f"{cf['digits']:g} digits in the centred form",
+                                    "Evaluate the curve with Choice.predict (the stable form) instead"))
+        b = np.asarray(cf["coefficients"], dtype=float)
+        d = max(m["degree"], 1)
+        b = np.concatenate([b, np.zeros(d + 1 - b.size)])
         scaler = StandardScaler()
-        scaler.mean_ = np.zeros(n_feat)
-        scaler.scale_ = np.ones(n_feat)
-        scaler.var_ = np.ones(n_feat)
-        scaler.n_features_in_ = n_feat
-        scaler.n_samples_seen_ = int(self.doc["data"]["rows_used"])
+        scaler.mean_, scaler.scale_, scaler.var_ = np.array([cf["center"]]), np.array([cf["scale"]]), \
+            np.array([cf["scale"] ** 2])
+        scaler.n_features_in_, scaler.n_samples_seen_ = 1, int(self.doc["data"]["rows_used"])
+        poly = PolynomialFeatures(d, include_bias=False).fit(np.zeros((1, 1)))
         ridge = Ridge(alpha=m["lambda"], fit_intercept=True)
-        ridge.coef_ = a[1:] if d >= 1 else np.zeros(1)
-        ridge.intercept_ = float(a[0])
-        ridge.n_features_in_ = n_feat
-        return Pipeline([("polynomialfeatures", poly), ("standardscaler", scaler), ("ridge", ridge)])
+        ridge.coef_, ridge.intercept_, ridge.n_features_in_ = b[1:], float(b[0]), d
+        return Pipeline([("standardscaler", scaler), ("polynomialfeatures", poly), ("ridge", ridge)])
 
     def to_dict(self) -> dict:
         return json.loads(json.dumps(self.doc))
@@ -185,101 +201,3 @@ class Choice:
     def save(self, path, *, force: bool = False) -> Path:
         return write_atomic(path, self.to_json() + "\n", force=force)
 
-
-def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
-                weight_column=None, weight_kind=None, notes: str = "", version: str = "0.1.0",
-                groups_from=None, folds_given_by=None) -> Choice:
-    """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
-
-    Refits on the sweep's training rows (the sealed rows stay out; with ``x=None``
-    the fit comes from the sweep's statistics, for streamed files), takes the CV
-    numbers from the sweep's statistics, and records the recommendation and the
-    sealed-test audit record. ``weight_kind`` is "relative" or "uncertainty".
-    """
-    from .fit import fit as _fit
-    from .fit import fit_from_engine
-
-    eng = surface.engine
-    if x is None:   # streamed rows: the fit comes from the statistics
-        f = fit_from_engine(eng, degree, lam)
-        rows, xr = eng.n_train, list(f.x_range)
-    else:
-        train = ~eng.plan.test_mask
-        x = np.asarray(x, dtype=float)[train]
-        y = np.asarray(y, dtype=float)[train]
-        w = None if weights is None else np.asarray(weights, dtype=float)[train]
-        # the curvature penalty integrates over the sweep's range: refit with the sweep's domain
-        dom = eng.domain if eng.penalty == "curvature" else None
-        f = _fit(x, y, degree, lam, weights=w, intercept=surface.intercept, penalty=eng.penalty, mix=eng.mix,
-                 domain=dom)
-        rows, xr = int(x.size), [float(x.min()), float(x.max())]
-    m, se, _ = eng.cv_summary(degree, [lam])
-    info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
-            "sealed_test": surface.sealed.to_dict(), "groups_from": groups_from, "folds_given_by": folds_given_by}
-    data = {"excluded_rows": [], **data, "rows_used": rows, "x_range": xr}
-    return build_choice(fit=f, surface_info=info, rule=rule,
-                        cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
-                        data=data, notes=notes, weight_column=weight_column, weight_kind=weight_kind,
-                        version=version)
-
-
-def rule_of(surface, degree: int, lam: float) -> str:
-    """'lowest' or 'simplest' when (degree, lambda) is that recommendation, else 'manual'."""
-    for name, rec in surface.recommended.items():
-        if rec.degree == degree and math.isclose(rec.lam, lam, rel_tol=1e-9, abs_tol=0.0):
-            return name
-    return "manual"
-
-
-def _finite_or_none(v):
-    return float(v) if v is not None and np.isfinite(v) else None
-
-
-def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, notes: str = "",
-                 weight_column=None, weight_kind=None, version: str = "0.1.0") -> Choice:
-    """Assemble and validate a choice document from a FitOutcome and validation numbers.
-
-    ``cv`` holds cv_mse, cv_mse_se, train_mse; ``surface_info`` the fold scheme
-    (scheme, k, repeats, seed), the recommendations and the sealed-test record.
-    """
-    kind = weight_kind if weight_column else None
-    doc = {
-        "format": FORMAT, "version": VERSION,
-        "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
-        "software": {"name": "curvewright", "version": version},
-        "data": data,
-        "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": fit.penalty, "mix": fit.mix,
-                  "intercept": fit.intercept,
-                  "weighting": {"column": weight_column, "kind": kind},
-                  "reduced_chi_square": _finite_or_none(fit.reduced_chi_square) if kind == "uncertainty" else None,
-                  "domain": fit.domain.to_dict(),
-                  "legendre_coefficients": [float(v) for v in fit.legendre],
-                  "power_coefficients": fit.power_rows(),
-                  "uncertainty": None if fit.legendre_cov is None else {
-                      "residual_sd": fit.residual_sd, "residual_df": fit.residual_df,
-                      "legendre_covariance": np.asarray(fit.legendre_cov).tolist()}},
-        "validation": {"scheme": surface_info["scheme"], "k": surface_info["k"],
-                       "repeats": surface_info["repeats"], "seed": surface_info["seed"],
-                       "groups_from": surface_info.get("groups_from"),
-                       "folds_given_by": surface_info.get("folds_given_by"),
-                       "cv_mse": float(cv["cv_mse"]), "cv_rmse": math.sqrt(float(cv["cv_mse"])),
-                       "cv_mse_se": _finite_or_none(cv["cv_mse_se"]),
-                       "train_mse": float(cv["train_mse"]), "effective_df": float(fit.effective_df),
-                       "rule": rule, "recommendation": surface_info["recommendation"],
-                       "sealed_test": surface_info["sealed_test"]},
-        "notes": notes,
-    }
-    return Choice.from_dict(json.loads(json.dumps(doc, allow_nan=False)))
-
-
-def score(choice: Choice, x, y) -> dict:
-    """Scores of a saved curve on new labelled rows: RMSE, MAE, max |error|, bias (mean of y - yhat)."""
-    x = np.asarray(x, dtype=float)
-    y = np.asarray(y, dtype=float)
-    e = y - choice.predict(x)
-    lo, hi = choice.x_range
-    outside = (x < lo) | (x > hi)
-    return {"n": int(x.size), "rmse": float(np.sqrt(np.mean(e ** 2))), "mae": float(np.mean(np.abs(e))),
-            "max_abs_error": float(np.max(np.abs(e))), "bias": float(np.mean(e)),
-            "outside_fitted_range": int(outside.sum()),
-            "x_range": [float(x.min()), float(x.max())], "fitted_x_range": [lo, hi]}

@@ -31,6 +31,19 @@ def _power(term) -> int:
     return int(m.group(1))
 
 
+def _power_form(m: dict) -> dict:
+    """Digits of the raw power form and the centred form, computed from the file's own stable form."""
+    from .basis import Domain
+    from .curve import Curve, centred_form, power_form_digits
+
+    dom = Domain(float(m["domain"]["center"]), float(m["domain"]["half_width"]))
+    curve = Curve(dom, m["legendre_coefficients"], through_origin=not m["intercept"])
+    digits = power_form_digits(curve, dom.center - dom.half_width, dom.center + dom.half_width)
+    c, s, b = centred_form(curve)
+    return {"digits": round(digits["raw"], 2), "centred": {"center": c, "scale": s, "coefficients": b.tolist(),
+                                                           "digits": round(digits["centred"], 2)}}
+
+
 def upgrade_v1(doc: dict) -> dict:
     """A version-2 document from a version-1 one (raises DataError naming a field it cannot map)."""
     try:
@@ -42,9 +55,14 @@ def upgrade_v1(doc: dict) -> dict:
         m["power_coefficients"] = [{"power": _power(r["term"]), "value": r["estimate"],
                                     "standard_error": r["std_error"]} for r in m["power_coefficients"]]
         iv = m.pop("interval")
-        m["uncertainty"] = None if iv is None else {"residual_sd": iv["residual_sd"],
-                                                    "residual_df": iv["df_residual"],
-                                                    "legendre_covariance": iv["legendre_covariance"]}
+        # 0.1 scaled the covariance by s^2 and gave a reading band s^2 + g'Cov g with Student's t: exactly
+        # the "none" reading model (a reading of unit weight), so the numbers are unchanged
+        m["uncertainty"] = None if iv is None else {
+            "method": "classical", "legendre_covariance": iv["legendre_covariance"],
+            "residual_sd": iv["residual_sd"], "residual_df": iv["df_residual"], "bootstrap": None,
+            "reading": {"kind": "none", "residual_var": iv["residual_sd"] ** 2, "df": iv["df_residual"],
+                        "median_weight": 1.0, "u_table": None, "birge_scaled": False}}
+        m["power_form"] = _power_form(m)
         m.setdefault("mix", 0.0)
         m.setdefault("reduced_chi_square", None)
         v["groups_from"] = v.pop("group_column", None)
@@ -56,7 +74,13 @@ def upgrade_v1(doc: dict) -> dict:
             rec["rule"] = RULES[rec.get("rule", old)]
             recs[RULES[old]] = rec
         v["recommendation"] = recs
+        v["checks"], v["advice"] = {}, ""
+        st = v["sealed_test"]
+        st.setdefault("rows", None)
+        st.setdefault("chosen_after_reveal", bool(st.get("revealed") and (
+            st.get("degree") != m["degree"] or st.get("lambda") != m["lambda"])))
         d["data"].setdefault("excluded_rows", [])
+        d["data"]["fit_rows"] = "cross-validation rows"
     except (KeyError, TypeError, AttributeError) as exc:
         raise DataError(message("Choice file (version 1)", "the fields curvewright 0.1 wrote",
                                 f"a file without {exc}", "Export the choice again")) from None

@@ -43,8 +43,33 @@ def _sealed() -> dict:
     props = {"fraction": {"type": "number", "minimum": 0, "exclusiveMaximum": 1},
              "n": {"type": "integer", "minimum": 0}, "revealed": {"type": "boolean"},
              "revealed_at": TEXT_OR_NULL, "mse": {"type": "number", "minimum": 0},
-             "rmse": {"type": "number", "minimum": 0}, "degree": DEGREE, "lambda": {"type": "number", "minimum": 0}}
-    return closed(props, required=["fraction", "n", "revealed", "revealed_at"])
+             "rmse": {"type": "number", "minimum": 0}, "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
+             "rows": {"oneOf": [{"type": "null"}, {"type": "array", "items": {"type": "integer", "minimum": 0}}]},
+             "chosen_after_reveal": {"type": "boolean"},
+             "changes_after_reveal": {"type": "integer", "minimum": 0},
+             "gap": closed({"ratio_of_mse": {"type": "number", "minimum": 0},
+                            "p_value": {"type": "number", "minimum": 0, "maximum": 1}})}
+    return closed(props, required=["fraction", "n", "revealed", "revealed_at", "rows", "chosen_after_reveal"])
+
+
+def _check() -> dict:
+    lof = {"oneOf": [{"type": "null"}, closed({
+        "F": {"type": "number", "minimum": 0}, "df_lack": {"type": "number", "exclusiveMinimum": 0},
+        "df_pure": {"type": "integer", "minimum": 1}, "p_value": {"type": "number", "minimum": 0, "maximum": 1},
+        "pure_error_sd": {"type": "number", "minimum": 0}})]}
+    return closed({"rule": {"enum": ["lowest", "simplest"]}, "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
+                   "shift_sd": NUMBER_OR_NULL, "runs": {"type": ["integer", "null"]}, "runs_expected": NUMBER_OR_NULL,
+                   "runs_p": NUMBER_OR_NULL, "lack_of_fit": lof, "passed": {"type": ["boolean", "null"]},
+                   "reasons": {"type": "array", "items": {"type": "string"}}})
+
+
+def _reading() -> dict:
+    table = {"oneOf": [{"type": "null"}, closed({"x": {"type": "array", "items": NUMBER, "minItems": 1},
+                                                  "u": {"type": "array", "items": {"type": "number", "exclusiveMinimum": 0},
+                                                        "minItems": 1}})]}
+    return closed({"kind": {"enum": ["none", "relative", "uncertainty"]},
+                   "residual_var": {"type": "number", "minimum": 0}, "df": NUMBER_OR_NULL,
+                   "median_weight": NUMBER_OR_NULL, "u_table": table, "birge_scaled": {"type": "boolean"}})
 
 
 def schema() -> dict:
@@ -53,7 +78,8 @@ def schema() -> dict:
         "file": TEXT_OR_NULL, "file_sha256": SHA256_OR_NULL, "columns_sha256": SHA256,
         "rows_used": {"type": "integer", "minimum": 1}, "rows_dropped": ROWS, "excluded_rows": ROWS,
         "x_column": {"type": "string"}, "y_column": {"type": "string"}, "x_unit": TEXT_OR_NULL,
-        "y_unit": TEXT_OR_NULL, "x_range": {"type": "array", "items": NUMBER, "minItems": 2, "maxItems": 2}})
+        "y_unit": TEXT_OR_NULL, "x_range": {"type": "array", "items": NUMBER, "minItems": 2, "maxItems": 2},
+        "fit_rows": {"enum": ["cross-validation rows", "all kept rows"]}})
     square = {"type": "array", "items": {"type": "array", "items": NUMBER}}
     model = closed({
         "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
@@ -65,9 +91,19 @@ def schema() -> dict:
         "legendre_coefficients": {"type": "array", "items": NUMBER, "minItems": 1, "maxItems": 31},
         "power_coefficients": {"type": "array", "maxItems": 31, "items": closed({
             "power": DEGREE, "value": NUMBER, "standard_error": NUMBER_OR_NULL})},
+        "power_form": closed({
+            "digits": {"type": "number", "minimum": 0, "maximum": 17},
+            "centred": closed({"center": NUMBER, "scale": {"type": "number", "exclusiveMinimum": 0},
+                               "coefficients": {"type": "array", "items": NUMBER, "minItems": 1, "maxItems": 31},
+                               "digits": {"type": "number", "minimum": 0, "maximum": 17}})}),
         "uncertainty": {"oneOf": [{"type": "null"}, closed({
-            "residual_sd": {"type": "number", "minimum": 0}, "residual_df": {"type": "number", "exclusiveMinimum": 0},
-            "legendre_covariance": square})]},
+            "method": {"enum": ["classical", "bootstrap", "smoother"]},
+            "legendre_covariance": square,
+            "residual_sd": NUMBER_OR_NULL, "residual_df": {"type": "number"},
+            "bootstrap": {"oneOf": [{"type": "null"}, closed({"B": {"type": "integer", "minimum": 1},
+                                                              "refits": {"type": "integer", "minimum": 1},
+                                                              "seed": {"type": "integer", "minimum": 0}})]},
+            "reading": _reading()})]},
     })
     validation = closed({
         "scheme": {"enum": ["kfold", "group", "explicit", "hash", "loo"]},
@@ -77,6 +113,9 @@ def schema() -> dict:
         "cv_mse_se": NUMBER_OR_NULL, "train_mse": {"type": "number", "minimum": 0},
         "effective_df": {"type": "number", "minimum": 0}, "rule": {"enum": ["lowest", "simplest", "manual"]},
         "recommendation": closed({"lowest": _recommendation(), "simplest": _recommendation()}),
+        "checks": {"type": "object", "properties": {"lowest": _check(), "simplest": _check()},
+                   "additionalProperties": False},
+        "advice": {"type": "string"},
         "sealed_test": _sealed()})
     return {
         "$schema": "https://json-schema.org/draft/2020-12/schema",

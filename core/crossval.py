@@ -50,7 +50,7 @@ def build_engine(x, y, *, max_degree: int, folds: int | str = 10, repeats: int =
                                     "Lower the highest degree or use a smaller test fraction"))
         return build_loo_engine(x, y, wt, mask, seed=p.seed, test_fraction=p.test_fraction,
                                 max_degree=p.max_degree, intercept=p.intercept, penalty=penalty,
-                                own=own_domains(x, y, wt, p.max_degree, p.intercept))
+                                own=own_domains(x, y, wt, p.max_degree, p.intercept), row_keys=keys)
     plan = make_plan(x.size, folds=folds, repeats=repeats, groups=groups, fold_ids=fold_ids,
                      seed=p.seed, test_fraction=p.test_fraction, row_keys=row_keys)
     labels = cell_labels(plan, p.max_degree)

@@ -18,6 +18,7 @@ import numpy as np
 from scipy import stats
 from scipy.linalg import solve_triangular
 
+from .bands import ReadingModel, band_limits, u_table
 from .basis import Domain, legendre_columns, legendre_cov_to_power_se, legendre_to_power
 from .curve import Curve
 from .errors import DataError, ParameterError, message
@@ -27,29 +28,7 @@ from .batch import solve_sets
 from .solve import FoldSolver
 from .validate import check_xyw, require_spread
 
-__all__ = ["FitOutcome", "fit", "fit_from_engine", "band_limits", "least_squares_rows", "BANDS"]
-
-BANDS = ("curve", "reading")
-
-
-def band_limits(yhat, t, cov, residual_sd, df, band, coverage):
-    """Low and high t-based limits from the Legendre-coefficient covariance (lambda = 0).
-
-    ``band="curve"``: where the fitted curve itself lies (its standard error only);
-    ``band="reading"``: where one new reading lies (adds the residual variance).
-    """
-    if band not in BANDS:
-        raise ParameterError(message("Parameter 'band'", "'curve' or 'reading'", repr(band)))
-    coverage = check(coverage=coverage).coverage
-    if cov is None:
-        raise ParameterError(message("Band", "a lambda = 0 fit (classical t-based bands)",
-                                     "a penalized fit", "Use lambda = 0 for t-based bands"))
-    P = legendre_columns(np.asarray(t, dtype=float), cov.shape[0] - 1)
-    var = np.einsum("ij,jk,ik->i", P, cov, P)
-    if band == "reading":
-        var = var + residual_sd ** 2
-    half = stats.t.ppf(0.5 + coverage / 2, df) * np.sqrt(np.maximum(var, 0.0))
-    return yhat - half, yhat + half
+__all__ = ["FitOutcome", "fit", "fit_from_engine", "least_squares_rows", "reading_model"]
 
 
 @dataclass(frozen=True)
@@ -103,6 +82,26 @@ class FitOutcome:
     legendre_cov: np.ndarray | None = field(default=None, repr=False)
     penalty: str = "ridge"
     mix: float = 0.0
+    reading: ReadingModel = field(default_factory=ReadingModel, repr=False)
+    covariance_method: str | None = None       # "classical" (lambda = 0) or "bootstrap"
+
+    @property
+    def weight_kind(self) -> str:
+        """"none", "relative" or "uncertainty" (see ``core.bands``)."""
+        return self.reading.kind
+
+    @property
+    def chi_square(self) -> float:
+        """sum w r^2 (with stated uncertainties, the chi-square of the fit)."""
+        return self.sse
+
+    @property
+    def chi_square_p(self) -> float | None:
+        """With stated uncertainties: P(chi2 >= observed) on residual_df degrees of freedom (small: the scatter
+        is larger than the stated u say); None otherwise."""
+        if self.weight_kind != "uncertainty" or not self.residual_df > 0:
+            return None
+        return float(stats.chi2.sf(self.sse, self.residual_df))
 
     @property
     def domain(self) -> Domain:
@@ -118,17 +117,21 @@ class FitOutcome:
         when the curve and the stated uncertainties agree (common practice in calibration)."""
         return self.residual_sd ** 2
 
-    def predict(self, x, band: str | None = None, coverage: float = 0.95):
+    def predict(self, x, band: str | None = None, coverage: float = 0.95, *, reading_u=None,
+                reading_weight=None):
         """Predictions at raw x from the stable form.
 
         Parameters
         ----------
         x : array_like of shape (m,)
         band : {None, "curve", "reading"}
-            With lambda = 0, the classical t-based band where the fitted curve itself
-            lies ("curve") or where one new reading lies ("reading").
+            The band where the fitted curve itself lies ("curve") or where one new reading
+            lies ("reading"); see ``core.bands`` for what each weights kind assumes.
         coverage : float
             Share of cases the band covers, e.g. 0.95.
+        reading_u, reading_weight : float or array_like, optional
+            The new reading's own standard uncertainty (stated-uncertainty fits) or weight
+            (relative weights); defaults are stated in ``core.bands``.
 
         Returns
         -------
@@ -137,8 +140,9 @@ class FitOutcome:
         yhat = self.curve(x)
         if band is None:
             return yhat
-        t = self.domain.map(np.asarray(x, dtype=float))
-        return (yhat, *band_limits(yhat, t, self.legendre_cov, self.residual_sd, self.residual_df, band, coverage))
+        x = np.asarray(x, dtype=float)
+        return (yhat, *band_limits(yhat, self.domain.map(x), self.legendre_cov, self.reading, band, coverage,
+                                   x=x, reading_u=reading_u, reading_weight=reading_weight))
 
     def power_rows(self) -> list[dict]:
         """The raw-x power form: [{"power": k, "value": a_k, "standard_error": se or None}, ...]."""
@@ -209,7 +213,8 @@ def least_squares_rows(x, y, w, degree, intercept, domain):
 
 
 def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = True,
-        penalty: str = "ridge", mix: float = 0.5, domain: Domain | None = None) -> FitOutcome:
+        penalty: str = "ridge", mix: float = 0.5, domain: Domain | None = None,
+        weight_kind: str | None = None, scale_by_birge: bool = False) -> FitOutcome:
     """Fit the regularized polynomial of one degree and lambda to all given rows.
 
     Parameters
@@ -233,6 +238,11 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     domain : Domain, optional
         The x -> t map (default: the rows' own range). The curvature penalty integrates over
         its window, so a fit that must match a sweep's curve passes the sweep's domain.
+    weight_kind : {"relative", "uncertainty"}, optional
+        What ``weights`` are (default "relative"): relative weights, or 1/u^2 for stated standard
+        uncertainties u, whose covariance is used as given (``core.bands``).
+    scale_by_birge : bool
+        With stated uncertainties, scale the covariance by the reduced chi-square (Birge ratio squared).
 
     Returns
     -------
@@ -255,6 +265,7 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
     p = check(degree=degree, lam=lam, intercept=intercept)
     degree, lam, intercept = p.degree, p.lam, p.intercept
     mix_ = combination(penalty=penalty, mix=mix)
+    kind = "none" if weights is None else check(weight_kind=weight_kind or "relative").weight_kind
     x, y, w = check_xyw(x, y, weights)
     require_spread(x)
     weighted = weights is not None
@@ -280,13 +291,15 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         df_res = float(n - npar)
         edf = float(npar)
         resid_sd = float(np.sqrt(sse / df_res))
+        # stated uncertainties are taken as given unless scaled on request; otherwise s^2 (X'WX)^-1
+        factor = 1.0 if kind == "uncertainty" and not scale_by_birge else resid_sd ** 2
         if intercept:
-            leg_cov = resid_sd ** 2 * cov_u
+            leg_cov = factor * cov_u
             se = legendre_cov_to_power_se(domain, leg_cov)
         else:
             J, cq = cov_u
-            se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, resid_sd ** 2 * cq, first=1)])
-            leg_cov = resid_sd ** 2 * (J @ cq @ J.T)
+            se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, factor * cq, first=1)])
+            leg_cov = factor * (J @ cq @ J.T)
         curve = Curve(domain, legendre, through_origin=not intercept)
     else:
         M = accumulate(x, y, labels=np.zeros((1, n), dtype=np.int16), n_cells=1,
@@ -306,19 +319,34 @@ def fit(x, y, degree: int, lam: float = 0.0, *, weights=None, intercept: bool = 
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
         power = curve.power_form()
     r2 = 1.0 - sse / sst if sst > 0 else float("nan")
+    reading = reading_model(kind, x, w, resid_sd ** 2, df_res, scale_by_birge)
     return FitOutcome(degree, lam, bool(intercept), curve, np.asarray(power, float), se, resid_sd, float(r2),
-                     df_res, edf, int(n), float(sse), float(sse / np.sum(w)), weighted,
-                     (float(x.min()), float(x.max())), leg_cov, penalty, mix_)
+                      df_res, edf, int(n), float(sse), float(sse / np.sum(w)), weighted,
+                      (float(x.min()), float(x.max())), leg_cov, penalty, mix_, reading,
+                      "classical" if leg_cov is not None else None)
 
 
-def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitOutcome:
+def reading_model(kind: str, x, w, residual_var: float, residual_df: float, birge: bool = False) -> ReadingModel:
+    """What a reading band needs for these rows' weights kind (see ``core.bands``)."""
+    if kind == "uncertainty":
+        return ReadingModel("uncertainty", residual_var, residual_df if birge else None, None,
+                            u_table(x, 1.0 / np.sqrt(w)), birge)
+    if kind == "relative":
+        return ReadingModel("relative", residual_var, residual_df, float(np.median(w)))
+    return ReadingModel("none", residual_var, residual_df, 1.0)
+
+
+def fit_from_engine(engine, degree: int, lam: float = 0.0, weight_kind: str | None = None) -> FitOutcome:
     """The fit on an engine's training rows, from its statistics alone (no rows needed).
 
     Used when the rows were streamed from a file. At lambda = 0 the coefficient
     covariance is s^2 (J' P'WP J)^-1 in the Legendre form (J = I with intercept,
-    the through-origin map otherwise), so standard errors and intervals match
-    ``fit`` to rounding; the row-based refinement of ``fit`` is not available.
+    the through-origin map otherwise), or (J' P'WP J)^-1 for stated uncertainties, so
+    standard errors and bands match ``fit`` to rounding; the row-based refinement of
+    ``fit`` is not available, nor the table of the rows' u (a reading's own u must then
+    be given).
     """
+    kind = "none" if not engine.weighted else (weight_kind or "relative")
     curve = engine.curve(degree, lam)
     lam = float(lam)
     sv = engine.full
@@ -336,20 +364,24 @@ def fit_from_engine(engine, degree: int, lam: float = 0.0) -> FitOutcome:
         df_res = float(n - npar)
         resid_sd = float(np.sqrt(sse / df_res))
         G = S[:degree + 1, :degree + 1]
+        factor = 1.0 if kind == "uncertainty" else resid_sd ** 2
         if sv.intercept:
-            leg_cov = resid_sd ** 2 * np.linalg.inv(G)
+            leg_cov = factor * np.linalg.inv(G)
             se = legendre_cov_to_power_se(domain, leg_cov)
         else:
             p0 = legendre_columns(np.array([domain.map(0.0)]), degree)[0]
             J = np.vstack([-p0[1:][None, :], np.eye(degree)])
             cov_q = np.linalg.inv(J.T @ G @ J)
-            se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, resid_sd ** 2 * cov_q, first=1)])
-            leg_cov = resid_sd ** 2 * (J @ cov_q @ J.T)
+            se = np.concatenate([[np.nan], legendre_cov_to_power_se(domain, factor * cov_q, first=1)])
+            leg_cov = factor * (J @ cov_q @ J.T)
     else:
         df_res = float(n - edf)
         resid_sd = float(np.sqrt(sse / df_res)) if df_res > 0 else float("nan")
     lo = domain.center - domain.half_width
     hi = domain.center + domain.half_width
+    reading = ReadingModel(kind, resid_sd ** 2, None if kind == "uncertainty" else df_res,
+                           None if kind != "relative" else 1.0)
     return FitOutcome(degree, lam, sv.intercept, curve, curve.power_form(), se, resid_sd,
-                     float(1 - sse / sst) if sst > 0 else float("nan"), df_res, edf, int(n), sse,
-                     train_mse, engine.weighted, (float(lo), float(hi)), leg_cov, engine.penalty, engine.mix)
+                      float(1 - sse / sst) if sst > 0 else float("nan"), df_res, edf, int(n), sse,
+                      train_mse, engine.weighted, (float(lo), float(hi)), leg_cov, engine.penalty, engine.mix,
+                      reading, "classical" if leg_cov is not None else None)

@@ -61,6 +61,17 @@ class FoldPlan:
     test_fraction: float = 0.0
     n_rows: int | None = None      # set for hashed plans, whose labels are not held
     n_sealed: int | None = None
+    row_keys: np.ndarray | None = field(default=None, repr=False, compare=False)   # the rows' sealed-test keys
+    keys_unknown: bool = False      # rows keyed by numbers this plan does not hold (a very large streamed file)
+
+    @property
+    def sealed_rows(self) -> list | None:
+        """Keys of the sealed rows (spreadsheet row numbers when the rows came from a file), or None
+        when the plan does not hold its rows (partitioned engines, statistics files)."""
+        if self.test_mask.size != self.n or self.keys_unknown:
+            return None
+        keys = np.arange(self.n) if self.row_keys is None else self.row_keys
+        return [int(k) for k in np.asarray(keys)[self.test_mask]]
 
     @property
     def n(self) -> int:
@@ -184,7 +195,7 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
         if k < 2:
             raise DataError(message("Fold column", "at least 2 distinct fold values", k))
         labels[0, train] = inv
-        return FoldPlan("explicit", k, 1, seed, labels, test_mask, float(test_fraction))
+        return FoldPlan("explicit", k, 1, seed, labels, test_mask, float(test_fraction), row_keys=row_keys)
 
     k = check(folds=folds).folds
     if groups is not None:
@@ -203,7 +214,7 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
                 fold_of_group[g] = f
                 load[f] += sizes[g]
             labels[r, train] = fold_of_group[inv]
-        return FoldPlan("group", k, repeats, seed, labels, test_mask, float(test_fraction))
+        return FoldPlan("group", k, repeats, seed, labels, test_mask, float(test_fraction), row_keys=row_keys)
 
     if m < k:
         raise DataError(message(
@@ -214,7 +225,7 @@ def make_plan(n: int, *, folds: int = 10, repeats: int = 1, groups=None, fold_id
     for r in range(repeats):
         perm = np.random.default_rng([seed, 11, r]).permutation(m)
         labels[r, perm if whole else train[perm]] = pos
-    return FoldPlan("kfold", k, repeats, seed, labels, test_mask, float(test_fraction))
+    return FoldPlan("kfold", k, repeats, seed, labels, test_mask, float(test_fraction), row_keys=row_keys)
 
 
 def cell_labels(plan: FoldPlan, max_degree: int) -> np.ndarray:

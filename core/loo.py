@@ -99,7 +99,7 @@ class LooEngine(ScoringEngine):
 
 
 def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max_degree: int,
-                     intercept: bool = True, penalty: str = "ridge", own=None) -> LooEngine:
+                     intercept: bool = True, penalty: str = "ridge", own=None, row_keys=None) -> LooEngine:
     """Leave-one-out engine over the rows outside the sealed test set (inputs trusted)."""
     train = ~test_mask
     labels = np.where(train, 0, 1)[None, :].astype(np.int32)
@@ -109,7 +109,7 @@ def build_loo_engine(x, y, w, test_mask, *, seed: int, test_fraction: float, max
     n = int(train.sum())
     loo_labels = np.full((1, x.size), -1, dtype=np.int32)
     loo_labels[0, train] = np.arange(n)
-    loo_plan = FoldPlan("loo", n, 1, seed, loo_labels, test_mask, test_fraction)
+    loo_plan = FoldPlan("loo", n, 1, seed, loo_labels, test_mask, test_fraction, row_keys=row_keys)
     wt = np.ones(n) if w is None else w[train]
     own = None if own is None else own(mom, {"full": (train, ~train)})
     return LooEngine(mom, loo_plan, x[train], y[train], wt, intercept=intercept, penalty=penalty, own=own)

@@ -148,6 +148,7 @@ RULES = {
     "coverage": ("coverage", Number("a number between 0 and 1", lo=0.0, hi=1.0, lo_open=True, hi_open=True)),
     "noise_sd": ("noise_sd", Number("a finite number >= 0", lo=0.0)),
     "intercept": ("intercept", Flag()),
+    "weight_kind": ("weight_kind", OneOf(("relative", "uncertainty"))),
     "chunk_rows": ("chunk_rows", Integer(1, 100_000_000)),
 }
 

@@ -137,7 +137,7 @@ class Surface:
             "recommended": {k: v.to_dict() for k, v in self.recommended.items()},
             "folds": self.folds, "n_train": self.n_train, "intercept": self.intercept,
             "penalty": self.engine.penalty, "mix": self.engine.mix,
-            "sealed_test": self.sealed.to_dict(),
+            "sealed_test": self.sealed.to_dict(), "sealed_rows": self.engine.plan.sealed_rows,
         }
 
 

@@ -16,6 +16,7 @@ and Parquet stream; .xlsx is read whole.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import re
 import time
@@ -36,6 +37,8 @@ from .validate import single_x
 
 __all__ = ["Scan", "scan_file", "sweep_file", "iter_chunks", "chunk_columns"]
 
+KEEP_ROW_NUMBERS = 10_000_000     # a scan keeps the used rows' numbers (8 bytes each) up to this many
+
 
 @dataclass(frozen=True)
 class Scan:
@@ -54,6 +57,7 @@ class Scan:
     weight_name: str | None
     notices: tuple = ()
     sealed: np.ndarray | None = field(default=None, repr=False)   # sealed mask of the used rows, when asked
+    row_numbers: np.ndarray | None = field(default=None, repr=False)   # spreadsheet rows of the used rows
 
     @property
     def x_unit(self):
@@ -170,14 +174,17 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "
     dropped = []
     lo, hi = np.inf, -np.inf
     names = {}
-    masks = []
+    masks, keys = [], []
     for names, offset, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
         xv, yv, w, keep, cols = chunk_columns(names, offset, frame, decimal, path.name, blank_rows)
         n_read += len(frame)
         n_used += xv.size
         dropped.extend((np.flatnonzero(~keep) + offset + 2).tolist())
         if sealed is not None:
-            masks.append(sealed_mask(xv.size, sealed[1], sealed[0], keys=np.flatnonzero(keep) + offset + 2))
+            rows = np.flatnonzero(keep) + offset + 2
+            masks.append(sealed_mask(xv.size, sealed[1], sealed[0], keys=rows))
+            if n_used <= KEEP_ROW_NUMBERS:
+                keys.append(rows)
         if xv.size:
             lo, hi = min(lo, float(xv.min())), max(hi, float(xv.max()))
         for role, h in digests.items():
@@ -194,7 +201,8 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "
             fh.update(block)
     wname = names.get("uncertainty", names.get("weights"))
     return Scan(str(path), n_read, n_used, dropped, lo, hi, fh.hexdigest(), columns_digest(digests),
-                names["x"], names["y"], wname, (), np.concatenate(masks) if masks else None)
+                names["x"], names["y"], wname, (), np.concatenate(masks) if masks else None,
+                np.concatenate(keys) if keys and n_used <= KEEP_ROW_NUMBERS else None)
 
 
 def sweep_file(path, degrees, lambdas=None, *, x, y, weights=None, uncertainty=None, folds: int = 10,
@@ -216,7 +224,9 @@ def sweep_file(path, degrees, lambdas=None, *, x, y, weights=None, uncertainty=N
     sc = scan_file(path, x=x, y=y, weights=weights, uncertainty=uncertainty, blank_rows=blank_rows,
                    chunk_rows=p.chunk_rows, sealed=(p.seed, p.test_fraction))
     plan = make_plan(sc.rows_used, folds=p.folds, repeats=p.repeats, seed=p.seed, test_fraction=p.test_fraction,
-                     sealed=sc.sealed)
+                     sealed=sc.sealed, row_keys=sc.row_numbers)
+    if sc.row_numbers is None:
+        plan = dataclasses.replace(plan, keys_unknown=True)
     labels = cell_labels(plan, max_degree)
     acc = Accumulator(Domain.from_range(sc.x_min, sc.x_max), max_degree, plan.repeats * plan.k + 1)
     specs = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}

@@ -30,7 +30,8 @@ from .batch import solve_sets
 from .solve import FoldSolver
 from .validate import check_xyw
 
-__all__ = ["bootstrap_curves", "bootstrap_band", "bias_variance", "bias_variance_from_sets", "BiasVariance"]
+__all__ = ["bootstrap_curves", "bootstrap_coefficients", "bootstrap_covariance", "bootstrap_band", "bias_variance",
+           "bias_variance_from_sets", "BiasVariance"]
 
 
 def _design(x, y, w, degree, domain):
@@ -41,48 +42,84 @@ def _design(x, y, w, degree, domain):
     return B, y0
 
 
-def bootstrap_curves(x, y, degree: int, lam: float, grid, *, B: int = 400, seed: int = 0, weights=None,
-                     groups=None, intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> np.ndarray:
-    """Curves of B bootstrap refits at ``grid``: ndarray of shape (B, len(grid))."""
+def bootstrap_coefficients(x, y, degree: int, lam: float, *, B: int = 400, seed: int = 0, weights=None,
+                           groups=None, intercept: bool = True, penalty: str = "ridge", mix: float = 0.5,
+                           domain: Domain | None = None) -> tuple[np.ndarray, Domain]:
+    """Legendre coefficients (raw y) of B bootstrap refits, shape (B_fitted, degree + 1), and their domain.
+
+    Rows (or whole groups) are resampled with replacement by ``default_rng([seed, 29])``; each
+    resample's statistics are the rows' weighted by their counts (no row is copied), formed
+    ``CHUNK`` resamples at a time so memory stays bounded. Resamples that cannot be fitted
+    (a single distinct x) are left out.
+    """
     p = check(degree=degree, lam=lam, B=B, seed=seed, intercept=intercept)
     degree, lam, B = p.degree, p.lam, p.B
     mix_ = combination(penalty=penalty, mix=mix)
     x, y, w = check_xyw(x, y, weights)
-    domain = Domain.from_range(x.min(), x.max())
+    domain = Domain.from_range(x.min(), x.max()) if domain is None else domain
     D, y0 = _design(x, y, w, degree, domain)
     rng = np.random.default_rng([seed, 29])
     if groups is None:
-        counts = rng.multinomial(x.size, np.full(x.size, 1.0 / x.size), size=B).astype(float)
+        counts = rng.multinomial(x.size, np.full(x.size, 1.0 / x.size), size=B)
     else:
         uniq, inv = np.unique(np.asarray(groups), return_inverse=True)
-        gc = rng.multinomial(uniq.size, np.full(uniq.size, 1.0 / uniq.size), size=B).astype(float)
-        counts = gc[:, inv]
-    grams = np.einsum("bn,ni,nj->bij", counts * w, D, D, optimize=True)
-    Pg = legendre_columns(domain.map(np.asarray(grid, dtype=float)), degree)
-    out = np.full((B, Pg.shape[0]), np.nan)
-    for b in range(B):
-        try:
-            sv = FoldSolver(grams[b], domain, y0, intercept, label="bootstrap resample")
-            theta = solve_sets([sv], degree, np.array([lam]), penalty, mix_)[0][0, 0]
-        except (ParameterError, np.linalg.LinAlgError):
-            continue            # a resample with a single distinct x cannot be fitted
-        out[b] = Pg @ sv.raw(theta)
-    return out[np.isfinite(out).all(axis=1)]
+        counts = rng.multinomial(uniq.size, np.full(uniq.size, 1.0 / uniq.size), size=B)[:, inv]
+    out = np.full((B, degree + 1), np.nan)
+    for start in range(0, B, CHUNK):
+        part = counts[start:start + CHUNK].astype(float)
+        grams = np.einsum("bn,ni,nj->bij", part * w, D, D, optimize=True)
+        for i, G in enumerate(grams):
+            try:
+                sv = FoldSolver(G, domain, y0, intercept, label="bootstrap resample")
+                theta = solve_sets([sv], degree, np.array([lam]), penalty, mix_)[0][0, 0]
+            except (ParameterError, np.linalg.LinAlgError):
+                continue            # a resample with a single distinct x cannot be fitted
+            out[start + i] = sv.raw(theta)
+    return out[np.isfinite(out).all(axis=1)], domain
+
+
+CHUNK = 25      # resamples whose statistics are formed at once (memory: CHUNK x rows)
+
+
+def bootstrap_curves(x, y, degree: int, lam: float, grid, *, B: int = 400, seed: int = 0, weights=None,
+                     groups=None, intercept: bool = True, penalty: str = "ridge", mix: float = 0.5) -> np.ndarray:
+    """Curves of B bootstrap refits at ``grid``: ndarray of shape (B_fitted, len(grid))."""
+    coef, domain = bootstrap_coefficients(x, y, degree, lam, B=B, seed=seed, weights=weights, groups=groups,
+                                          intercept=intercept, penalty=penalty, mix=mix)
+    return coef @ legendre_columns(domain.map(np.asarray(grid, dtype=float)), coef.shape[1] - 1).T
+
+
+def bootstrap_covariance(x, y, degree: int, lam: float, *, domain: Domain, B: int = 399, seed: int = 0,
+                         weights=None, groups=None, intercept: bool = True, penalty: str = "ridge",
+                         mix: float = 0.5) -> tuple[np.ndarray, int]:
+    """(covariance of the Legendre coefficients in ``domain``'s coordinates, refits used): the
+    spread of B bootstrap refits, for curves whose penalty has no classical covariance."""
+    coef, _ = bootstrap_coefficients(x, y, degree, lam, B=B, seed=seed, weights=weights, groups=groups,
+                                     intercept=intercept, penalty=penalty, mix=mix, domain=domain)
+    if coef.shape[0] < 20:
+        raise ParameterError(message("Bootstrap", f"at least 20 of the {B} resamples to be fitted",
+                                     coef.shape[0], "Lower the degree, or use another penalty at this degree"))
+    return np.atleast_2d(np.cov(coef, rowvar=False)), int(coef.shape[0])
 
 
 def bootstrap_band(x, y, degree: int, lam: float, grid, *, band: str = "reading", coverage: float = 0.95,
                    B: int = 399, seed: int = 0, weights=None, groups=None, intercept: bool = True,
-                   penalty: str = "ridge", mix: float = 0.5):
+                   penalty: str = "ridge", mix: float = 0.5, weight_kind: str | None = None,
+                   reading_u=None, reading_weight=None):
     """(fit, low, high) at ``grid`` by the percentile bootstrap (see module docstring).
 
-    ``band="curve"``: where the fitted curve lies; ``band="reading"``: where one new reading lies.
+    ``band="curve"``: where the fitted curve lies; ``band="reading"``: where one new reading lies,
+    with the reading's noise as ``core.bands`` states it for the weights kind: a resampled residual
+    of the fit (none), one scaled to the reading's weight (relative; default the median weight),
+    or a normal draw with the reading's stated uncertainty (uncertainty; default interpolated).
     """
     if band not in ("curve", "reading"):
         raise ParameterError(message("Parameter 'band'", "'curve' or 'reading'", repr(band)))
     level = check(coverage=coverage).coverage
     x, y, w = check_xyw(x, y, weights)
     grid = np.asarray(grid, dtype=float)
-    f = _fit(x, y, degree, lam, weights=weights, intercept=intercept, penalty=penalty, mix=mix)
+    f = _fit(x, y, degree, lam, weights=weights, intercept=intercept, penalty=penalty, mix=mix,
+             weight_kind=weight_kind)
     curves = bootstrap_curves(x, y, degree, lam, grid, B=B, seed=seed, weights=weights, groups=groups,
                               intercept=intercept, penalty=penalty, mix=mix)
     if curves.shape[0] < 20:
@@ -95,16 +132,23 @@ def bootstrap_band(x, y, degree: int, lam: float, grid, *, band: str = "reading"
         return yhat, lo, hi
     # prediction error delta* = (yhat + e*) - yhat*, e* a leverage-modified residual
     # (Davison & Hinkley 1997, sec. 6.3.3): y_new lies in yhat + [q_a, q_(1-a)] of delta*
-    e = (y - f.predict(x)) * np.sqrt(w)
-    if penalty == "ridge" and x.size <= 5000:
-        S = smoother(x, w, degree, lam, x, intercept=intercept)
-        h = np.clip(np.diag(S) * 1.0, 0.0, 0.99)
-    else:
-        h = np.full(x.size, min(f.effective_df / x.size, 0.99))
-    r = e / np.sqrt(1.0 - h)
-    r = r - r.mean()
     rng = np.random.default_rng([seed, 31])
-    delta = yhat[None, :] + rng.choice(r, size=curves.shape, replace=True) - curves
+    if f.weight_kind == "uncertainty":
+        sd = np.sqrt(f.reading.reading_variance(grid, reading_u))
+        noise = rng.standard_normal(curves.shape) * sd[None, :]
+    else:
+        e = (y - f.predict(x)) * np.sqrt(w)            # residuals of unit weight
+        if penalty == "ridge" and x.size <= 5000:
+            S = smoother(x, w, degree, lam, x, intercept=intercept)
+            h = np.clip(np.diag(S) * 1.0, 0.0, 0.99)
+        else:
+            h = np.full(x.size, min(f.effective_df / x.size, 0.99))
+        r = e / np.sqrt(1.0 - h)
+        r = r - r.mean()
+        w0 = 1.0 if f.weight_kind == "none" else (reading_weight if reading_weight is not None
+                                                    else f.reading.median_weight)
+        noise = rng.choice(r, size=curves.shape, replace=True) / np.sqrt(w0)
+    delta = yhat[None, :] + noise - curves
     lo, hi = _order_quantiles(delta, a)
     return yhat, yhat + lo, yhat + hi
 

@@ -21,7 +21,8 @@ def add_parser(subparsers):
 
 
 def run(args, out) -> int:
-    from core.choice import Choice, score
+    from core.choice import Choice
+    from core.choice_build import score
 
     c = Choice.load(args.choice)
     for note in c.notices:

@@ -194,7 +194,7 @@ def _print_by_degree(s, out):
 
 def _save_choice(args, t, s, out):
     """The choice file for the picked (--pick-degree/--pick-lambda) or recommended (--rule) curve."""
-    from core.choice import make_choice, rule_of
+    from core.choice_build import make_choice, rule_of
 
     if args.pick_degree is not None:
         d, lam = args.pick_degree, args.pick_lambda

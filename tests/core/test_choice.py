@@ -10,7 +10,8 @@ import pytest
 
 import core
 from app.cli import main
-from core.choice import SCHEMA, Choice, make_choice, score
+from core.choice import SCHEMA, Choice
+from core.choice_build import make_choice, score
 from core.errors import DataError
 from core.files import FileExistsRefused, write_atomic
 
@@ -93,7 +94,8 @@ def test_intervals_stored_at_lambda_zero_match_statsmodels():
     frame = ref.summary_frame(alpha=0.05)
     np.testing.assert_allclose(lo, frame.obs_ci_lower, rtol=1e-10)
     np.testing.assert_allclose(hi, frame.obs_ci_upper, rtol=1e-10)
-    assert not choice_for(lam=0.1)[0].has_band
+    boot = choice_for(lam=0.1)[0]
+    assert boot.has_band and boot.doc["model"]["uncertainty"]["method"] == "bootstrap"
 
 
 def test_to_sklearn_predicts_the_same():
@@ -212,3 +214,54 @@ def test_nan_and_infinity_literals_are_refused():
     text = c.to_json().replace(f'"cv_mse": {c.doc["validation"]["cv_mse"]!r}', '"cv_mse": NaN', 1)
     with pytest.raises(DataError, match=r"Choice file: expected finite numbers \(JSON has no NaN or Infinity\), got NaN"):
         Choice.from_json(text)
+
+
+def test_sealed_record_lists_rows_and_flags_a_curve_chosen_after_the_reveal():
+    """The choice lists the sealed rows by their keys (spreadsheet row numbers when given), says whether the
+    exported curve differs from the one the sealed result was revealed for, and how surprising the sealed error
+    is: P(chi2_n >= n MSE_sealed / MSE_cv) for n sealed rows."""
+    from scipy import stats
+
+    x, y = invented()
+    rows = np.arange(2, 122)
+    s = core.sweep(x, y, range(0, 6), [1e-3, 1e-1], folds=5, test_fraction=0.25, seed=1, row_keys=rows)
+    data = {"file": "invented.csv", "file_sha256": None, "columns_sha256": "0" * 64, "rows_dropped": [],
+            "x_column": "x", "y_column": "y", "x_unit": None, "y_unit": None}
+    sealed = rows[s.engine.plan.test_mask].tolist()
+    c = make_choice(x, y, s, 2, 0.1, rule="manual", data=data)
+    st = c.doc["validation"]["sealed_test"]
+    assert st["rows"] == sealed and st["revealed"] is False and st["chosen_after_reveal"] is False
+    r = s.reveal_test(2, 0.1)
+    st = make_choice(x, y, r, 2, 0.1, rule="manual", data=data).doc["validation"]["sealed_test"]
+    assert st["revealed"] and not st["chosen_after_reveal"]
+    cv = r.engine.cv_mean(2, 0.1)
+    assert st["gap"]["p_value"] == pytest.approx(stats.chi2.sf(st["n"] * st["mse"] / cv, st["n"]), rel=1e-12)
+    after = make_choice(x, y, r, 3, 0.1, rule="manual", data=data).doc["validation"]["sealed_test"]
+    assert after["chosen_after_reveal"] is True and after["degree"] == 2
+
+
+def test_refit_on_all_kept_rows_is_recorded_and_equals_core_fit():
+    """On request the exported curve is refitted on every kept row (cross-validation and sealed), recorded as
+    such; by default it is fitted on the rows it was scored on."""
+    x, y = invented()
+    s = core.sweep(x, y, range(0, 6), [0.0, 1e-1], folds=5, test_fraction=0.25, seed=1)
+    data = {"file": None, "file_sha256": None, "columns_sha256": "0" * 64, "rows_dropped": [],
+            "x_column": "x", "y_column": "y", "x_unit": None, "y_unit": None}
+    c = make_choice(x, y, s, 2, 0.0, rule="manual", data=data, refit_all=True)
+    assert c.doc["data"]["fit_rows"] == "all kept rows" and c.doc["data"]["rows_used"] == x.size
+    np.testing.assert_array_equal(c.predict(x), core.fit(x, y, 2, 0.0).predict(x))
+    d = make_choice(x, y, s, 2, 0.0, rule="manual", data=data)
+    assert d.doc["data"]["fit_rows"] == "cross-validation rows" and d.doc["data"]["rows_used"] == s.n_train
+
+
+def test_choice_carries_the_recommendation_checks():
+    """The export states each pick's residual checks and which rule to prefer (core.checks)."""
+    from core.checks import advice, check_recommendations
+
+    c, s, x, y = choice_for()
+    ch = c.doc["validation"]["checks"]
+    train = ~s.engine.plan.test_mask
+    want = check_recommendations(s, x[train], y[train])
+    assert c.doc["validation"]["advice"] == advice(want)
+    for rule in ("lowest", "simplest"):
+        assert ch[rule] == json.loads(json.dumps(want[rule].to_dict()))

@@ -11,8 +11,8 @@ f_true = lambda t: 1 + 0.5 * t - 0.3 * t ** 2          # noqa: E731  (invented k
 
 
 def test_lambda_zero_intervals_match_statsmodels_wls():
-    """statsmodels WLS get_prediction: confidence and prediction intervals (invented weighted data).
-    statsmodels' obs interval for WLS uses unit weight for the new observation, as we do."""
+    """statsmodels WLS get_prediction: the curve band and, for a reading of weight 1 (statsmodels' obs interval
+    for WLS assumes unit weight for the new observation), the reading band (invented weighted data)."""
     import statsmodels.api as sm
 
     rng = np.random.default_rng(4)
@@ -25,7 +25,7 @@ def test_lambda_zero_intervals_match_statsmodels_wls():
         np.vander(g, 3, increasing=True)).summary_frame(alpha=0.05)
     _, lo, hi = r.predict(g, band="curve")
     np.testing.assert_allclose(lo, ref.mean_ci_lower, rtol=1e-10)
-    _, lo, hi = r.predict(g, band="reading")
+    _, lo, hi = r.predict(g, band="reading", reading_weight=1.0)
     np.testing.assert_allclose(hi, ref.obs_ci_upper, rtol=1e-10)
 
 
