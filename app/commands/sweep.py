@@ -164,6 +164,21 @@ def _files_label(files):
     return f"{len(files)} files ({Path(files[0]).name} ... {Path(files[-1]).name})"
 
 
+def _rmse(mse) -> str:
+    """sqrt(MSE) for printing; 0 for an exact fit (and a rounding-level negative), '-' for none."""
+    if mse is None or not math.isfinite(mse):
+        return "-"
+    return f"{math.sqrt(max(mse, 0.0)):.6g}"
+
+
+def _error_text(rec) -> str:
+    """'CV RMSE r +/- se' (the SE of the RMSE from the SE of the MSE), or the exact-fit wording."""
+    if not rec.cv_mse > 0:
+        return "exact fit (CV error 0)"
+    return (f"CV RMSE {math.sqrt(rec.cv_mse):.6g} "
+            f"+/- {rec.cv_mse_se / (2 * math.sqrt(rec.cv_mse)):.2g}")
+
+
 def _print_recommendations(s, t, out):
     """Rows and folds used, then each rule's recommendation with its edge-of-grid notes."""
     n_rows = t.rows_used if hasattr(t, "rows_used") else t.n
@@ -172,8 +187,7 @@ def _print_recommendations(s, t, out):
           f"{f['scheme']} folds k={f['k']}, repeats={f['repeats']}, seed={f['seed']}", file=out)
     for name, rec in s.recommended.items():
         print(f"recommended ({name}): degree {rec.degree}, lambda {rec.lam:.4g} "
-              f"(grid {rec.grid_lambda:.3g}); CV RMSE {math.sqrt(rec.cv_mse):.6g} "
-              f"+/- {rec.cv_mse_se / (2 * math.sqrt(rec.cv_mse)):.2g}; effective df {rec.effective_df:.3g}",
+              f"(grid {rec.grid_lambda:.3g}); {_error_text(rec)}; effective df {rec.effective_df:.3g}",
               file=out)
         if rec.degree_at_edge:
             print(f"  note: degree {rec.degree} is the top of the searched range; widen --degrees.", file=out)
@@ -182,13 +196,20 @@ def _print_recommendations(s, t, out):
 
 
 def _print_by_degree(s, out):
-    """One line per degree at its best lambda: CV RMSE, its standard error and the training RMSE."""
+    """One line per degree at its best lambda: CV RMSE, its standard error and the training RMSE.
+
+    A degree without any score (the lasso leaves out degrees whose powers are too collinear; the
+    warning says which) is listed as such instead of being given a number."""
     print("\nCV RMSE by degree (best lambda of each):", file=out)
     print(f"{'degree':>6}  {'lambda':>10}  {'CV RMSE':>12}  {'SE(MSE)':>10}  {'train RMSE':>12}", file=out)
     for i, d in enumerate(s.degrees):
-        j = int(np.nanargmin(s.cv_mse[i]))
-        print(f"{d:>6}  {s.lambdas[j]:>10.3g}  {math.sqrt(s.cv_mse[i, j]):>12.6g}  "
-              f"{s.cv_mse_se[i, j]:>10.3g}  {math.sqrt(s.train_mse[i, j]):>12.6g}", file=out)
+        row = np.asarray(s.cv_mse[i], dtype=float)
+        if not np.isfinite(row).any():
+            print(f"{d:>6}  {'-':>10}  {'not scored (see the warning)':>12}", file=out)
+            continue
+        j = int(np.nanargmin(row))
+        print(f"{d:>6}  {s.lambdas[j]:>10.3g}  {_rmse(s.cv_mse[i, j]):>12}  "
+              f"{s.cv_mse_se[i, j]:>10.3g}  {_rmse(s.train_mse[i, j]):>12}", file=out)
 
 
 def _save_choice(args, t, s, out):
