@@ -69,7 +69,7 @@ def test_output_path_that_is_a_folder_is_refused(tmp_path, capsys):
     folder = tmp_path / "results"
     folder.mkdir()
     assert_refused(fit_args(PONTIUS, "--json", folder), capsys,
-                   f"Output '{folder}': expected a path that does not exist yet, got an existing file. "
+                   f"Output '{folder}': expected a path that does not exist yet, got an existing folder. "
                    "Choose another name or pass --force to overwrite.")
     assert_refused(fit_args(PONTIUS, "--json", folder, "--force"), capsys,
                    f"Output '{folder}': expected a file that can be written, got a folder. "
