@@ -5,11 +5,10 @@ from __future__ import annotations
 
 import sys
 
+from core import defaults
 from core.files import write_atomic
 
-from core import defaults
-
-from .common import add_blank_rows, add_force, add_out, add_sheet, load_rows
+from .common import add_blank_rows, add_force, add_out, add_reader_args, load_rows
 
 
 def add_parser(subparsers):
@@ -23,7 +22,7 @@ def add_parser(subparsers):
                         "the curve lies")
     p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the band covers (default 0.95)")
     add_blank_rows(p)
-    add_sheet(p)
+    add_reader_args(p)
     add_force(p)
     return p
 
@@ -34,7 +33,7 @@ def run(args, out) -> int:
     c = Choice.load(args.choice)
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
-    t, frame = load_rows(args.data, args.x, None, args.blank_rows, args.sheet)
+    t, frame = load_rows(args, frame=True)
     outside = _add_predictions(c, t.x.values, frame, args.band, args.coverage)
     _write_table(args, frame, out)
     if outside.any():

@@ -9,7 +9,8 @@ import core
 from core import defaults
 from core.table import read_table
 
-from .common import add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data, write_json
+from .common import (add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data,
+                     reader_options, write_json)
 
 
 def add_parser(subparsers):
@@ -101,7 +102,8 @@ def _print_replicate_variance(args, out):
     """Variance and noise estimated from the repeated data sets named by --replicates."""
     from core.uncertainty import bias_variance_from_sets
 
-    rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, blank_rows=args.blank_rows, sheet=args.sheet)
+    rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, blank_rows=args.blank_rows,
+                    **reader_options(args))
     sets = [(rt.x.values[rt.groups == g], rt.y.values[rt.groups == g]) for g in np.unique(rt.groups)]
     grid = np.linspace(rt.x.values.min(), rt.x.values.max(), 101)
     est = bias_variance_from_sets(sets, args.degree, args.lam, grid, intercept=not args.through_origin,

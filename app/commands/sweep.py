@@ -20,7 +20,7 @@ from core.errors import ParameterError, message
 from core.table import unit_of
 
 from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
-                     add_seed, parse_degrees, parse_grid, read_data, write_json)
+                     add_seed, parse_degrees, parse_grid, read_data, reader_options, write_json)
 
 
 def add_parser(subparsers):
@@ -81,6 +81,8 @@ def _check_options(args):
     if args.loo and args.save_stats:
         raise ParameterError(message("Option --save-stats", "k-fold cross-validation (the file holds per-fold sums)",
                                      "--loo", "Leave-one-out needs the rows themselves; drop --loo to save statistics"))
+    if not 1 <= args.chunk_rows <= 100_000_000:
+        raise ParameterError(message("Option --chunk-rows", "a whole number from 1 to 100,000,000", args.chunk_rows))
 
 
 def _grid(args):
@@ -129,7 +131,10 @@ def _sweep_streamed(args, degrees, lams):
                        uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
                        test_fraction=args.test_fraction, intercept=not args.through_origin,
                        penalty=args.penalty, mix=args.mix,
-                       blank_rows=args.blank_rows, chunk_rows=args.chunk_rows, progress=Progress())
+                       blank_rows=args.blank_rows, chunk_rows=args.chunk_rows, progress=Progress(),
+                       **reader_options(args))
+    for note in sc.notices:
+        print(f"note: {note}", file=sys.stderr)
     if sc.rows_dropped:
         print(f"note: skipped {len(sc.rows_dropped)} row(s) with blank cells.", file=sys.stderr)
     return s, sc
@@ -139,6 +144,13 @@ def _sweep_engine(args, degrees, lams):
     from core.distributed import expand_paths, sweep_files
 
     _refuse_row_options(args, "--engine")
+    used = [name for name, on in (("--sheet", args.sheet), ("--no-header", args.no_header),
+                                  ("--skip-rows", args.skip_rows), ("--comment", args.comment)) if on]
+    if used:
+        raise ParameterError(message(f"Option {used[0]}", "one file read whole or with --stream",
+                                     "--engine (or a folder or a pattern of files)",
+                                     "Sweeps over many files read files whose header is their first line: "
+                                     "drop the option or sweep one file"))
     s, info = sweep_files(expand_paths(args.data), degrees, lams, x=args.x, y=args.y, weights=args.weights,
                           uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
                           test_fraction=args.test_fraction, intercept=not args.through_origin,

@@ -1,9 +1,14 @@
 """The command line on awkward files and outputs: exact fits, collinear lasso degrees, row numbers
 after blank lines, reader options, standard output, the CSV-injection guard and links at the output."""
 
+import json
+
+import numpy as np
 import pytest
 
 from app.cli import main
+
+LINE = "x,y\n" + "".join(f"{i},{2 * i + 1 + (0.5 if i % 3 == 0 else -0.25)}\n" for i in range(1, 13))
 
 
 def run(argv, capsys):
@@ -30,3 +35,73 @@ def test_lasso_on_timestamp_like_x_leaves_collinear_degrees_unscored(tmp_path, c
     assert code == 0 and "Traceback" not in err
     assert "     5           -  not scored (see the warning)" in out and "warning: " in err
     assert "recommended (lowest): degree" in out
+
+
+def test_exclude_takes_the_row_number_the_reader_reports(tmp_path, capsys):
+    """After a blank line, --exclude 9 leaves out the line a spreadsheet shows as row 9 (checked against numpy.polyfit)."""
+    lines = LINE.splitlines()
+    lines.insert(5, "")                      # a blank line: spreadsheet row 6
+    p = tmp_path / "b.csv"
+    p.write_text("\n".join(lines) + "\n")
+    out_json = tmp_path / "fit.json"
+    code, _, err = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1", "--exclude", "9", "--json", out_json],
+                       capsys)
+    assert code == 0 and "excluded row(s) 9" in err
+    kept = [ln.split(",") for i, ln in enumerate(lines, start=1) if i > 1 and ln and i != 9]
+    x, y = np.array(kept, dtype=float).T
+    assert 7.0 not in x and 8.0 in x         # row 9 holds x = 7 (row 6 is the blank line)
+    doc = json.loads(out_json.read_text())
+    slope = next(r["value"] for r in doc["power_coefficients"] if r["power"] == 1)
+    assert slope == pytest.approx(np.polyfit(x, y, 1)[0], rel=1e-10)
+    assert doc["data"]["excluded_rows"] == [9] and doc["data"]["rows"] == 11
+
+
+def test_no_header_keeps_the_first_row(tmp_path, capsys):
+    """--no-header fits every line (columns named 1 and 2); without it the numeric first line is refused."""
+    p = tmp_path / "n.csv"
+    p.write_text("".join(ln + "\n" for ln in LINE.splitlines()[1:]))
+    code, _, err = run(["fit", p, "--x", "1", "--y", "2", "--degree", "1"], capsys)
+    assert code == 2 and "Pass --no-header if the file has no header row" in err
+    out_json = tmp_path / "f.json"
+    code, _, _ = run(["fit", p, "--x", "1", "--y", "2", "--degree", "1", "--no-header", "--json", out_json], capsys)
+    x, y = np.loadtxt(p, delimiter=",").T
+    doc = json.loads(out_json.read_text())
+    assert code == 0 and doc["data"]["rows"] == 12
+    assert doc["power_coefficients"][1]["value"] == pytest.approx(np.polyfit(x, y, 1)[0], rel=1e-10)
+
+
+def test_comment_and_skip_rows_options(tmp_path, capsys):
+    """--skip-rows and --comment read a logger export with a title and notes; rows keep their numbers."""
+    p = tmp_path / "log.csv"
+    body = LINE.splitlines()
+    p.write_text("Logger 7 export\n# 2024-05-01\n" + "\n".join(body[:4] + ["# paused"] + body[4:]) + "\n")
+    code, _, err = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1"], capsys)
+    assert code == 2 and "--skip-rows 2" in err
+    out_json = tmp_path / "f.json"
+    code, out, err = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1", "--skip-rows", "1", "--comment", "#",
+                          "--exclude", "4,16", "--json", out_json], capsys)
+    data = json.loads(out_json.read_text())["data"]
+    assert code == 0 and "10 rows" in out      # rows 4 and 16 hold x = 1 and x = 12 (row 7 is the note)
+    assert (data["x_min"], data["x_max"]) == (2.0, 11.0)
+
+
+def test_semicolon_notice_names_each_columns_mark(tmp_path, capsys):
+    """The streamed and the whole reader both say which decimal mark each column was read with."""
+    p = tmp_path / "eu.csv"
+    p.write_text("x;y;note\n" + "".join(f"{i},5;{2 * i}.25;n {i},5\n" for i in range(12)))
+    for extra in ([], ["--stream"]):
+        code, _, err = run(["sweep", p, "--x", "x", "--y", "y", "--degrees", "0-2", "--folds", "3", *extra], capsys)
+        assert code == 0
+        assert ("note: File 'eu.csv' is semicolon-separated; read column 'x' with a decimal comma, 'y' with a "
+                "decimal point.") in err
+
+
+def test_engine_refuses_reader_options_by_name(tmp_path, capsys):
+    """--engine reads many files from their first line: --skip-rows there is refused, never ignored."""
+    p = tmp_path / "a.csv"
+    p.write_text(LINE)
+    code, _, err = run(["sweep", p, "--x", "x", "--y", "y", "--engine", "local", "--skip-rows", "1"], capsys)
+    assert code == 2 and err.strip().endswith(
+        "Option --skip-rows: expected one file read whole or with --stream, got --engine (or a folder or a "
+        "pattern of files). Sweeps over many files read files whose header is their first line: drop the option "
+        "or sweep one file.")
