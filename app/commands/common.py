@@ -20,7 +20,7 @@ from core.table import exclude_rows, read_table
 __all__ = [
     "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "Parser", "Progress", "add_blank_rows", "add_data_args",
     "add_degree_lambda", "add_fold_args", "add_folds", "add_force", "add_json", "add_out", "add_penalty_args",
-    "add_reader_args", "add_repeats", "add_seed", "add_sheet", "describe_os_error", "fmt",
+    "add_reader_args", "add_repeats", "add_seed", "add_sheet", "check_cells", "describe_os_error", "fmt",
     "load_rows", "output_paths", "parse_degrees", "parse_grid", "read_data", "reader_options", "write_json",
 ]
 
@@ -162,6 +162,16 @@ def add_json(p, help=None):
 
 def add_out(p, help=None, default=None):
     p.add_argument("--out", default=default, help=help)
+
+
+def check_cells(options: str, counts: dict) -> None:
+    """Refuse, before any work, a request whose product of counts exceeds ``defaults.MAX_CELLS``."""
+    total = math.prod(counts.values())
+    if total > defaults.MAX_CELLS:
+        raise ParameterError(message(
+            f"Options {options}", f"at most {defaults.MAX_CELLS:,} cells to score "
+            f"({' x '.join(counts)})", " x ".join(f"{v:,}" for v in counts.values()) + f" = {total:,}",
+            "Use fewer " + ", ".join(list(counts)[:-1]) + " or " + list(counts)[-1]))
 
 
 def add_force(p, help=None):

@@ -5,8 +5,8 @@ from __future__ import annotations
 import core
 from core import defaults
 
-from .common import (add_data_args, add_degree_lambda, add_fold_args, add_force, add_json, fmt, parse_grid,
-                     read_data, write_json)
+from .common import (add_data_args, add_degree_lambda, add_fold_args, add_force, add_json, check_cells, fmt,
+                     parse_grid, read_data, write_json)
 
 
 def add_parser(subparsers):
@@ -21,8 +21,10 @@ def add_parser(subparsers):
 
 
 def run(args, out) -> int:
-    t = read_data(args)
     sizes = parse_grid(args.sizes, log=False, option="--sizes")
+    check_cells("--folds, --repeats and --sizes", {"folds": args.folds, "repeats": args.repeats,
+                                                    "sizes": int(sizes.size)})
+    t = read_data(args)
     lc = core.size_curve(t.x.values, t.y.values, args.degree, args.lam, sizes=sizes,
                          folds=args.folds, repeats=args.repeats, seed=args.seed,
                          weights=t.weights, intercept=not args.through_origin)

@@ -20,7 +20,7 @@ from core.errors import ParameterError, message
 from core.table import unit_of
 
 from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
-                     add_seed, parse_degrees, parse_grid, read_data, reader_options, write_json)
+                     add_seed, check_cells, parse_degrees, parse_grid, read_data, reader_options, write_json)
 
 
 def add_parser(subparsers):
@@ -62,6 +62,9 @@ def add_parser(subparsers):
 def run(args, out) -> int:
     _check_options(args)
     degrees, lams = _grid(args)
+    check_cells("--folds, --repeats, --degrees and --lambdas",
+                {"folds": 1 if args.loo else args.folds, "repeats": args.repeats, "degrees": len(degrees),
+                 "lambdas": len(lams)})
     s, t = _sweep(args, degrees, lams)
     _print_recommendations(s, t, out)
     _print_by_degree(s, out)
