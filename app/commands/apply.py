@@ -6,9 +6,15 @@ from __future__ import annotations
 import sys
 
 from core import defaults
+from core.cells import is_number
 from core.files import write_atomic
 
 from .common import add_blank_rows, add_force, add_out, add_reader_args, load_rows
+
+# A spreadsheet opening the CSV treats a cell starting with one of these as a formula. Common
+# practice (OWASP, "CSV Injection"): prefix such text cells with a single quote so they show as
+# text. Numbers, negative ones included, are left as they are.
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 def add_parser(subparsers):
@@ -34,6 +40,7 @@ def run(args, out) -> int:
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
     t, frame = load_rows(args, frame=True)
+    frame = as_text_safe(frame)
     outside = _add_predictions(c, t.x.values, frame, args.band, args.coverage)
     _write_table(args, frame, out)
     if outside.any():
@@ -43,6 +50,26 @@ def run(args, out) -> int:
     if not c.has_band:
         print("note: no band: the choice has lambda > 0 (classical bands need lambda = 0).", file=sys.stderr)
     return 0
+
+
+def guard_cell(value):
+    """A copied text cell that a spreadsheet would run as a formula, prefixed with ' (see FORMULA_START);
+    numbers and other cells unchanged."""
+    if isinstance(value, str) and value.startswith(FORMULA_START) and not is_number(value, comma_decimal=True):
+        return "'" + value
+    return value
+
+
+def as_text_safe(frame):
+    """The input's columns (names and text cells) with every formula-like text guarded."""
+    import pandas as pd
+
+    frame = frame.copy()
+    frame.columns = [guard_cell(str(c)) for c in frame.columns]
+    for c in frame.columns:
+        if frame[c].dtype == object or pd.api.types.is_string_dtype(frame[c].dtype):
+            frame[c] = frame[c].map(guard_cell).astype(object)
+    return frame
 
 
 def _add_predictions(c, x, frame, band, coverage):

@@ -1,6 +1,8 @@
 """The command line on awkward files and outputs: exact fits, collinear lasso degrees, row numbers
 after blank lines, reader options, standard output, the CSV-injection guard and links at the output."""
 
+import csv
+import io
 import json
 
 import numpy as np
@@ -105,3 +107,27 @@ def test_engine_refuses_reader_options_by_name(tmp_path, capsys):
         "Option --skip-rows: expected one file read whole or with --stream, got --engine (or a folder or a "
         "pattern of files). Sweeps over many files read files whose header is their first line: drop the option "
         "or sweep one file.")
+
+
+def apply_rows(tmp_path, capsys, data_text):
+    p = tmp_path / "d.csv"
+    p.write_text(LINE)
+    choice = tmp_path / "c.json"
+    assert main(["sweep", str(p), "--x", "x", "--y", "y", "--degrees", "0-2", "--folds", "3",
+                 "--test-fraction", "0", "--save", str(choice), "--pick-degree", "1", "--pick-lambda", "0"]) == 0
+    new = tmp_path / "new.csv"
+    new.write_text(data_text)
+    capsys.readouterr()
+    code, out, err = run(["apply", choice, new, "--x", "x"], capsys)
+    assert code == 0
+    return list(csv.reader(io.StringIO(out)))
+
+
+def test_apply_guards_formula_like_text_cells(tmp_path, capsys):
+    """Copied text cells starting with = + - @ tab or CR get a leading quote (common practice: OWASP's CSV
+    injection guidance); numbers, negative ones included, stay numbers."""
+    text = ('x,label,=head\n1,=1+2,a\n2,+cmd,b\n3,-x,c\n4,@SUM(A1),d\n5,"\ttab",e\n6,-2.5,f\n7,plain,-7\n')
+    rows = apply_rows(tmp_path, capsys, text)
+    assert rows[0][:3] == ["x", "label", "'=head"]
+    assert [r[1] for r in rows[1:]] == ["'=1+2", "'+cmd", "'-x", "'@SUM(A1)", "'\ttab", "-2.5", "plain"]
+    assert rows[7][2] == "-7" and float(rows[6][1]) == -2.5
