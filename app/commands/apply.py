@@ -9,7 +9,7 @@ from core import defaults
 from core.cells import is_number
 from core.files import write_atomic
 
-from .common import add_blank_rows, add_force, add_out, add_reader_args, load_rows
+from .common import STDOUT, add_blank_rows, add_force, add_out, add_reader_args, load_rows
 
 # A spreadsheet opening the CSV treats a cell starting with one of these as a formula. Common
 # practice (OWASP, "CSV Injection"): prefix such text cells with a single quote so they show as
@@ -22,7 +22,7 @@ def add_parser(subparsers):
     p.add_argument("choice", help="choice file (JSON)")
     p.add_argument("data", help="rows to predict (CSV/TSV, .xlsx, .parquet)")
     p.add_argument("--x", required=True)
-    add_out(p, help="output CSV (default: standard output)")
+    add_out(p, help="output CSV (default, or '-': standard output)")
     p.add_argument("--band", choices=["reading", "curve"], default="reading",
                    help="band written beside each prediction: where one new reading lies (default) or where "
                         "the curve lies")
@@ -88,9 +88,9 @@ def _add_predictions(c, x, frame, band, coverage):
 
 
 def _write_table(args, frame, out):
-    """The frame as CSV to --out, or to standard output."""
+    """The frame as CSV to --out, or to standard output (no --out, or '-')."""
     text = frame.to_csv(index=False)
-    if args.out:
+    if args.out and args.out != STDOUT:
         write_atomic(args.out, text, force=args.force)
         print(f"wrote {len(frame)} predictions to {args.out}", file=out)
     else:

@@ -18,16 +18,18 @@ from core.files import write_atomic
 from core.table import exclude_rows, read_table
 
 __all__ = [
-    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "Parser", "Progress", "add_blank_rows", "add_data_args",
+    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "STDOUT", "Parser", "Progress", "add_blank_rows", "add_data_args",
     "add_degree_lambda", "add_fold_args", "add_folds", "add_force", "add_json", "add_out", "add_penalty_args",
     "add_reader_args", "add_repeats", "add_seed", "add_sheet", "check_cells", "describe_os_error", "fmt",
-    "load_rows", "output_paths", "parse_degrees", "parse_grid", "read_data", "reader_options", "write_json",
+    "load_rows", "output_paths", "parse_degrees", "parse_grid", "read_data", "reader_options", "text_out",
+    "write_json", "write_output",
 ]
 
 EXIT_BAD_INPUT = 2
 
 # Options naming a file or folder a command writes; every other path a command opens is read.
 OUTPUT_OPTIONS = ("json", "out", "save", "save_stats", "images")
+STDOUT = "-"         # as an output path: write to standard output instead of a file
 
 
 class Parser(argparse.ArgumentParser):
@@ -157,7 +159,8 @@ def add_fold_args(p, repeats):
 
 
 def add_json(p, help=None):
-    p.add_argument("--json", help=help)
+    p.add_argument("--json", help=(help or "write the result as JSON here") + " ('-': standard output, and the "
+                   "printed text goes to standard error)")
 
 
 def add_out(p, help=None, default=None):
@@ -221,14 +224,30 @@ def load_rows(args, y=None, *, frame=False):
     return t, rows.loc[t.row_numbers].reset_index(drop=True)
 
 
-def write_json(path, doc, *, force: bool) -> Path:
-    """``doc`` as indented JSON at ``path`` (atomic; refuses to overwrite unless ``force``)."""
-    return write_atomic(path, json.dumps(doc, indent=2), force=force)
+def write_output(path, text: str, *, force: bool, out) -> Path | None:
+    """``text`` to the file ``path`` (atomic; refuses to overwrite unless ``force``), or to ``out``
+    when ``path`` is "-"; returns the path written, None for standard output."""
+    if str(path) == STDOUT:
+        out.write(text if text.endswith("\n") else text + "\n")
+        out.flush()
+        return None
+    return write_atomic(path, text, force=force)
+
+
+def write_json(path, doc, *, force: bool, out=None) -> Path | None:
+    """``doc`` as indented JSON at ``path`` (atomic; refuses to overwrite unless ``force``), or on
+    standard output for "-"."""
+    return write_output(path, json.dumps(doc, indent=2), force=force, out=out or sys.stdout)
+
+
+def text_out(args, out):
+    """Where a command prints its text: ``out``, or stderr when --json sends the JSON to standard output."""
+    return sys.stderr if str(getattr(args, "json", None)) == STDOUT else out
 
 
 def output_paths(args) -> list[str]:
     """The paths a parsed command line writes to (the options in OUTPUT_OPTIONS that it has)."""
-    return [str(v) for v in (getattr(args, k, None) for k in OUTPUT_OPTIONS) if v]
+    return [str(v) for v in (getattr(args, k, None) for k in OUTPUT_OPTIONS) if v and str(v) != STDOUT]
 
 
 def describe_os_error(exc: OSError, outputs=()) -> str:

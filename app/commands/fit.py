@@ -10,7 +10,7 @@ from core import defaults
 from core.table import read_table
 
 from .common import (add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data,
-                     reader_options, write_json)
+                     reader_options, text_out, write_json)
 
 
 def add_parser(subparsers):
@@ -33,6 +33,7 @@ def add_parser(subparsers):
 
 
 def run(args, out) -> int:
+    json_out, out = out, text_out(args, out)
     t = read_data(args)
     r = core.fit(t.x.values, t.y.values, args.degree, args.lam, weights=t.weights,
                  intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
@@ -46,7 +47,7 @@ def run(args, out) -> int:
     elif args.bias_variance:
         _print_bias_variance(args, r, t, out)
     if args.json:
-        _write_fit_json(args, r, t)
+        _write_fit_json(args, r, t, json_out)
     return 0
 
 
@@ -125,9 +126,9 @@ def _print_bias_variance(args, r, t, out):
           f"{bv.simulated_variance:.4g})", file=out)
 
 
-def _write_fit_json(args, r, t):
+def _write_fit_json(args, r, t, out):
     """The fit and the data it came from (file, fingerprint, columns, excluded rows) as JSON."""
     doc = r.to_dict()
     doc["data"] = {"file": t.path, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name,
                    "excluded_rows": list(t.excluded_rows)}
-    write_json(args.json, doc, force=args.force)
+    write_json(args.json, doc, force=args.force, out=out)

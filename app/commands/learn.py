@@ -6,7 +6,7 @@ import core
 from core import defaults
 
 from .common import (add_data_args, add_degree_lambda, add_fold_args, add_force, add_json, check_cells, fmt,
-                     parse_grid, read_data, write_json)
+                     parse_grid, read_data, text_out, write_json)
 
 
 def add_parser(subparsers):
@@ -15,7 +15,7 @@ def add_parser(subparsers):
     add_degree_lambda(p)
     p.add_argument("--sizes", default="0.1:1:10", help="fractions START:STOP:COUNT")
     add_fold_args(p, repeats=defaults.LEARN_REPEATS)
-    add_json(p)
+    add_json(p, help="write the learning curve as JSON here")
     add_force(p)
     return p
 
@@ -28,9 +28,9 @@ def run(args, out) -> int:
     lc = core.size_curve(t.x.values, t.y.values, args.degree, args.lam, sizes=sizes,
                          folds=args.folds, repeats=args.repeats, seed=args.seed,
                          weights=t.weights, intercept=not args.through_origin)
-    _print_curve(lc, out)
+    _print_curve(lc, text_out(args, out))
     if args.json:
-        write_json(args.json, lc.to_dict(), force=args.force)
+        write_json(args.json, lc.to_dict(), force=args.force, out=out)
     return 0
 
 

@@ -20,7 +20,8 @@ from core.errors import ParameterError, message
 from core.table import unit_of
 
 from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
-                     add_seed, check_cells, parse_degrees, parse_grid, read_data, reader_options, write_json)
+                     add_seed, check_cells, parse_degrees, parse_grid, read_data, reader_options, text_out,
+                     write_json)
 
 
 def add_parser(subparsers):
@@ -66,10 +67,11 @@ def run(args, out) -> int:
                 {"folds": 1 if args.loo else args.folds, "repeats": args.repeats, "degrees": len(degrees),
                  "lambdas": len(lams)})
     s, t = _sweep(args, degrees, lams)
+    json_out, out = out, text_out(args, out)
     _print_recommendations(s, t, out)
     _print_by_degree(s, out)
     if args.json:
-        write_json(args.json, s.to_dict(), force=args.force)
+        write_json(args.json, s.to_dict(), force=args.force, out=json_out)
     if args.save:
         _save_choice(args, t, s, out)
     if args.save_stats:

@@ -211,6 +211,8 @@ NEW_CASES = [
      'Option --chunk-rows: expected a whole number from 1 to 100,000,000, got 0.'),
  ("existing folder at the output", {"f.csv": GOOD, "out/keep.txt": "x"}, fit("f.csv", "--json", "{dir}/out"),
      "Output '{dir}/out': expected a path that does not exist yet, got an existing folder. Choose another name or pass --force to overwrite."),
+ ("choice to standard output", {"f.csv": GOOD}, ["sweep", "{dir}/f.csv", "--x", "x", "--y", "y", "--save", "-"],
+     "Option --save: expected a file name, got '-'. 'sweep' writes --save to a file only."),
  ("blank rows after text in the same file", {"f.csv": "x,y\n1,2\n2,\n\n4,abc\n5,6\n"}, fit(),
      "File 'f.csv' column 'y' row 5: expected a number, got 'abc'. Correct the cell, or empty it if the value is missing."),
  ("decimal comma, notes column untouched, then empty cell", {"f.csv": "x;y;note\n1;3,1;see 1,5\n2;;ok\n3;5,2;x\n"}, fit(),

@@ -4,6 +4,7 @@ after blank lines, reader options, standard output, the CSV-injection guard and 
 import csv
 import io
 import json
+import os
 
 import numpy as np
 import pytest
@@ -118,7 +119,7 @@ def apply_rows(tmp_path, capsys, data_text):
     new = tmp_path / "new.csv"
     new.write_text(data_text)
     capsys.readouterr()
-    code, out, err = run(["apply", choice, new, "--x", "x"], capsys)
+    code, out, err = run(["apply", choice, new, "--x", "x", "--out", "-"], capsys)
     assert code == 0
     return list(csv.reader(io.StringIO(out)))
 
@@ -131,3 +132,33 @@ def test_apply_guards_formula_like_text_cells(tmp_path, capsys):
     assert rows[0][:3] == ["x", "label", "'=head"]
     assert [r[1] for r in rows[1:]] == ["'=1+2", "'+cmd", "'-x", "'@SUM(A1)", "'\ttab", "-2.5", "plain"]
     assert rows[7][2] == "-7" and float(rows[6][1]) == -2.5
+
+
+def test_standard_output_for_apply_schema_and_json(tmp_path, capsys):
+    """'-' writes to standard output: apply's CSV, the schema, and --json (the text then goes to stderr)."""
+    rows = apply_rows(tmp_path, capsys, "x\n1\n2\n")
+    assert rows[0][:2] == ["x", "prediction"] and len(rows) == 3
+    code, out, _ = run(["schema", "--out", "-"], capsys)
+    assert code == 0 and json.loads(out)["type"] == "object"
+    p = tmp_path / "d.csv"
+    code, out, err = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1", "--json", "-"], capsys)
+    assert code == 0 and json.loads(out)["degree"] == 1 and "residual SD" in err
+    code, out, err = run(["sweep", p, "--x", "x", "--y", "y", "--degrees", "0-2", "--folds", "3", "--json", "-"], capsys)
+    assert code == 0 and json.loads(out)["degrees"] == [0, 1, 2] and "recommended (simplest)" in err
+    assert not (tmp_path / "-").exists()
+
+
+@pytest.mark.skipif(not hasattr(os, "symlink"), reason="needs symbolic links")
+def test_dangling_link_at_the_output_needs_force(tmp_path, capsys):
+    """A symbolic link to nothing at the output path is refused without --force, like any existing path."""
+    p = tmp_path / "d.csv"
+    p.write_text(LINE)
+    link = tmp_path / "out.json"
+    os.symlink(tmp_path / "gone.json", link)
+    code, _, err = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1", "--json", link], capsys)
+    assert code == 2 and err.strip().endswith(
+        f"error: Output '{link}': expected a path that does not exist yet, got a symbolic link to nothing "
+        "(dangling). Choose another name or pass --force to overwrite.")
+    assert link.is_symlink() and not (tmp_path / "gone.json").exists()
+    code, _, _ = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1", "--json", link, "--force"], capsys)
+    assert code == 0 and json.loads(link.read_text())["degree"] == 1
