@@ -7,7 +7,7 @@ import numpy as np
 
 import core
 from core import defaults
-from core.table import read_table
+from core.table import exclude_rows, read_table
 
 from .common import (add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data,
                      reader_options, text_out, write_json)
@@ -43,7 +43,7 @@ def run(args, out) -> int:
     if args.influence:
         _print_influence(r, t, out)
     if args.bias_variance and args.replicates:
-        _print_replicate_variance(args, out)
+        _print_replicate_variance(args, t, out)
     elif args.bias_variance:
         _print_bias_variance(args, r, t, out)
     if args.json:
@@ -99,12 +99,15 @@ def _print_influence(r, t, out):
                        for n, i in zip(rows, inf.flagged)) or "none"), file=out)
 
 
-def _print_replicate_variance(args, out):
-    """Variance and noise estimated from the repeated data sets named by --replicates."""
+def _print_replicate_variance(args, t, out):
+    """Variance and noise estimated from the repeated data sets named by --replicates (the rows
+    excluded with --exclude left out here too)."""
     from core.uncertainty import bias_variance_from_sets
 
     rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, blank_rows=args.blank_rows,
                     **reader_options(args))
+    if t.excluded_rows:
+        rt = exclude_rows(rt, t.excluded_rows)
     sets = [(rt.x.values[rt.groups == g], rt.y.values[rt.groups == g]) for g in np.unique(rt.groups)]
     grid = np.linspace(rt.x.values.min(), rt.x.values.max(), 101)
     est = bias_variance_from_sets(sets, args.degree, args.lam, grid, intercept=not args.through_origin,

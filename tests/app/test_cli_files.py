@@ -162,3 +162,20 @@ def test_dangling_link_at_the_output_needs_force(tmp_path, capsys):
     assert link.is_symlink() and not (tmp_path / "gone.json").exists()
     code, _, _ = run(["fit", p, "--x", "x", "--y", "y", "--degree", "1", "--json", link, "--force"], capsys)
     assert code == 0 and json.loads(link.read_text())["degree"] == 1
+
+
+def test_replicate_variance_leaves_out_excluded_rows(tmp_path, capsys):
+    """fit --bias-variance --replicates with --exclude 5 prints what the same file without row 5 prints."""
+    rows = [f"{x},{2 * x + (0.3 if run == 'a' else -0.2) + 0.1 * (x % 3)},{run}" for run in "abc" for x in range(8)]
+    rows[2] = "2,40.0,a"                                      # row 4 (with the header): a wild reading
+    full = tmp_path / "full.csv"
+    full.write_text("x,y,run\n" + "\n".join(rows) + "\n")
+    cut = tmp_path / "cut.csv"
+    cut.write_text("x,y,run\n" + "\n".join(rows[:2] + rows[3:]) + "\n")
+    args = ["--x", "x", "--y", "y", "--degree", "1", "--bias-variance", "--replicates", "run"]
+    _, with_exclude, _ = run(["fit", full, *args, "--exclude", "4"], capsys)
+    _, without_row, _ = run(["fit", cut, *args], capsys)
+    _, with_row, _ = run(["fit", full, *args], capsys)
+    line = [ln for ln in with_exclude.splitlines() if ln.startswith("from 3 repeated data sets")]
+    assert line and line == [ln for ln in without_row.splitlines() if ln.startswith("from 3 repeated")]
+    assert line != [ln for ln in with_row.splitlines() if ln.startswith("from 3 repeated")]
