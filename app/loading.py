@@ -13,7 +13,7 @@ from pathlib import Path
 
 from core import defaults
 from core.errors import DataError
-from core.table import exclude_rows, read_frame, read_table
+from core.table import column_names, exclude_rows, read_table
 
 __all__ = ["STREAMABLE", "should_stream", "columns_of", "read_rows", "open_rows", "apply_exclusion",
            "parse_exclude", "load_statistics", "stream_statistics"]
@@ -28,9 +28,8 @@ def should_stream(path) -> bool:
 
 
 def columns_of(path) -> list[str]:
-    """The file's column names, in order."""
-    frame, _, _ = read_frame(Path(path))
-    return [str(c) for c in frame.columns]
+    """The file's column names, in order (only the start of the file is read)."""
+    return column_names(Path(path))
 
 
 def read_rows(path, x, y, weights: str = "", *, weight_kind: str = "relative", group: str = ""):

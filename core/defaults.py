@@ -20,6 +20,7 @@ PENALTY = "curvature"            # the command line's and the page's penalty (th
 # penalty changes every filter factor by less than 1/LAMBDA_MARGIN (negligible) to where it leaves
 # less than 1/LAMBDA_MARGIN of every penalized component, LAMBDA_PER_DECADE points per decade.
 LAMBDA_PER_DECADE = 3
+DEFAULT_GRID_MAX = 101            # the default grid never holds more points than this (0 included)
 LAMBDA_MARGIN = 1e3
 LAMBDA_RANGE = (1e-8, 1e6)       # the positive range when the data give no usable scale
 FOLDS = 10

@@ -287,7 +287,7 @@ def default_lambdas(engine: ScoringEngine, degree: int | None = None) -> np.ndar
                 lo, hi = top * 1e-6, top
     if lo is None or not (0 < lo < hi) or not np.isfinite(hi):
         lo, hi = defaults.LAMBDA_RANGE
-    count = int(np.clip(np.ceil(per * np.log10(hi / lo)) + 1, 2, defaults.MAX_GRID - 1))
+    count = int(np.clip(np.ceil(per * np.log10(hi / lo)) + 1, 2, defaults.DEFAULT_GRID_MAX - 1))
     return np.concatenate([[0.0], np.logspace(np.log10(lo), np.log10(hi), count)])
 
 

@@ -58,58 +58,136 @@ def save_stats(path, engine: ScoringEngine, data: dict, *, force: bool = False) 
     return write_atomic(path, json.dumps(doc), force=force)
 
 
-def _need(doc, key, kind, where=""):
-    if key not in doc or not isinstance(doc[key], kind):
-        raise DataError(message(f"Statistics file field '{where}{key}'", f"a {getattr(kind, '__name__', kind)}",
-                                "nothing" if key not in doc else type(doc[key]).__name__))
-    return doc[key]
+# A statistics file holds (repeats x k + 1) cells of (D + 2)^2 numbers; the largest the sweep can
+# write (MAX_CELLS scored cells, degree 30) is far below this. Larger files are refused unread.
+MAX_STATS_BYTES = 256 * 2**20
+_SCHEMES = ("kfold", "hash", "group", "explicit")
+
+
+def _field(name: str, expected: str, got) -> DataError:
+    if isinstance(got, _Missing):
+        shown = "nothing"
+    elif isinstance(got, (str, bool, int, float)) or got is None:
+        shown = repr(got) if len(repr(got)) <= 40 else repr(got)[:37] + "..."
+    else:
+        shown = f"a {type(got).__name__}"
+    return DataError(message(f"Statistics file field '{name}'", expected, shown,
+                             "Write the file again with `curvewright sweep --save-stats`"))
+
+
+class _Missing:
+    pass
+
+
+def _get(doc: dict, key: str):
+    return doc.get(key, _Missing()) if isinstance(doc, dict) else _Missing()
+
+
+def _int(doc, key, where="", lo=0, hi=None, default=None):
+    v = _get(doc, key)
+    if isinstance(v, _Missing) and default is not None:
+        return default
+    if isinstance(v, bool) or not isinstance(v, int) or v < lo or (hi is not None and v > hi):
+        raise _field(where + key, f"a whole number >= {lo}" + (f" and <= {hi}" if hi is not None else ""), v)
+    return v
+
+
+def _number(doc, key, where="", positive=False, lo=None, hi=None, default=None):
+    v = _get(doc, key)
+    if isinstance(v, _Missing) and default is not None:
+        return default
+    ok = isinstance(v, (int, float)) and not isinstance(v, bool) and np.isfinite(v)
+    ok = ok and not (positive and v <= 0) and not (lo is not None and v < lo) and not (hi is not None and v >= hi)
+    if not ok:
+        what = "a finite number" + (" > 0" if positive else "") + (f" in [{lo}, {hi})" if lo is not None else "")
+        raise _field(where + key, what, v)
+    return float(v)
+
+
+def _dict(doc, key):
+    v = _get(doc, key)
+    if not isinstance(v, dict):
+        raise _field(key, "an object", v)
+    return v
+
+
+def _cells(cells, R, k, D):
+    """(gram, counts) of the cells, every entry checked."""
+    if not isinstance(cells, list) or len(cells) != R * k + 1:
+        raise _field("cells", f"{R * k + 1} cells for k = {k}, repeats = {R}",
+                     len(cells) if isinstance(cells, list) else cells)
+    gram = np.empty((R * k + 1, D + 2, D + 2))
+    counts = np.empty(R * k + 1, dtype=np.int64)
+    for i, c in enumerate(cells):
+        counts[i] = _int(c, "count", where=f"cells/{i}/")
+        g = _get(c, "gram")
+        if not (isinstance(g, list) and len(g) == D + 2
+                and all(isinstance(r, list) and len(r) == D + 2 for r in g)):
+            raise _field(f"cells/{i}/gram", f"a {D + 2} x {D + 2} matrix (lists of numbers)", g)
+        odd = [v for r in g for v in r if not isinstance(v, (int, float)) or isinstance(v, bool)]
+        if odd:
+            raise _field(f"cells/{i}/gram", "numbers only", odd[0])
+        gram[i] = g
+        if not np.all(np.isfinite(gram[i])):
+            raise _field(f"cells/{i}/gram", "finite numbers", "an infinite or NaN entry")
+    return gram, counts
 
 
 def load_stats(path, *, penalty: str = "ridge", mix: float = 0.5) -> tuple[ScoringEngine, dict]:
     """(engine, data description) from a statistics file, checked field by field.
 
     ``penalty`` and ``mix`` choose how the statistics are scored (any penalty works
-    from the same sums).
+    from the same sums). Every field is checked for its type and range before use; a
+    damaged file gives a DataError naming the field.
     """
+    from .defaults import MAX_DEGREE
+
     p = Path(path)
     if not p.is_file():
         raise DataError(message(f"Statistics file '{p}'", "an existing file", "nothing at that path"))
+    if p.stat().st_size > MAX_STATS_BYTES:
+        raise DataError(message(f"Statistics file '{p.name}'", f"at most {MAX_STATS_BYTES // 2**20} MB",
+                                f"{p.stat().st_size / 2**20:,.0f} MB"))
     try:
         doc = json.loads(p.read_bytes().decode("utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError):
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError):
         raise DataError(message(f"Statistics file '{p.name}'", "valid JSON", "something else")) from None
     if not isinstance(doc, dict) or doc.get("format") != FORMAT:
         raise DataError(message(f"Statistics file '{p.name}' field 'format'", repr(FORMAT),
                                 repr(doc.get("format") if isinstance(doc, dict) else doc)))
     if doc.get("version") != 1:
         raise DataError(message("Statistics file field 'version'", "1", repr(doc.get("version"))))
-    dom = _need(doc, "domain", dict)
-    D = _need(doc, "max_degree", int)
-    folds = _need(doc, "folds", dict)
-    cells = _need(doc, "cells", list)
-    k, R = int(folds.get("k", 0)), int(folds.get("repeats", 0))
-    if len(cells) != R * k + 1:
-        raise DataError(message("Statistics file field 'cells'", f"{R * k + 1} cells for k = {k}, repeats = {R}",
-                                len(cells)))
-    try:
-        gram = np.array([c["gram"] for c in cells], dtype=float)
-        counts = np.array([c["count"] for c in cells], dtype=np.int64)
-    except (KeyError, TypeError, ValueError):
-        raise DataError(message("Statistics file field 'cells'", "entries with 'count' and a square 'gram'",
-                                "something else")) from None
-    if gram.shape != (R * k + 1, D + 2, D + 2) or not np.all(np.isfinite(gram)):
-        raise DataError(message("Statistics file field 'cells/gram'", f"finite {D + 2} x {D + 2} matrices",
-                                f"shape {gram.shape}"))
-    domain = Domain(float(dom["center"]), float(dom["half_width"]))
+    dom = _dict(doc, "domain")
+    center = _number(dom, "center", "domain/")
+    half = _number(dom, "half_width", "domain/", positive=True)
+    D = _int(doc, "max_degree", hi=MAX_DEGREE)
+    folds = _dict(doc, "folds")
+    k = _int(folds, "k", "folds/", lo=2, hi=1000)
+    R = _int(folds, "repeats", "folds/", lo=1, hi=1000)
+    scheme = _get(folds, "scheme")
+    scheme = "kfold" if isinstance(scheme, _Missing) else scheme
+    if scheme not in _SCHEMES:
+        raise _field("folds/scheme", "one of " + ", ".join(map(repr, _SCHEMES)), scheme)
+    seed = _int(folds, "seed", "folds/", default=0)
+    test_fraction = _number(folds, "test_fraction", "folds/", lo=0.0, hi=1.0, default=0.0)
+    y_shift = _number(doc, "y_shift", default=0.0)
+    intercept = _get(doc, "intercept")
+    if not isinstance(intercept, (bool, _Missing)):
+        raise _field("intercept", "true or false", intercept)
+    gram, counts = _cells(_get(doc, "cells"), R, k, D)
+    n_rows = _int(folds, "n_rows", "folds/", default=int(counts.sum()))
+    data = _get(doc, "data")
+    if not isinstance(data, (dict, _Missing)):
+        raise _field("data", "an object", data)
+    domain = Domain(center, half)
     # files written before the 'weighted' field existed: rows carried weights when the
     # total weight differs from the row count (their only trace)
     weighted = doc.get("weighted")
     if not isinstance(weighted, bool):
         weighted = not np.isclose(gram[:, 0, 0].sum(), counts.sum())
-    mom = Moments(domain, D, float(doc.get("y_shift", 0.0)), gram, counts, weighted)
-    plan = FoldPlan(folds.get("scheme", "kfold"), k, R, int(folds.get("seed", 0)),
-                    np.zeros((R, 0), dtype=np.int16), np.zeros(0, dtype=bool),
-                    float(folds.get("test_fraction", 0.0)), n_rows=int(folds.get("n_rows", counts.sum())),
-                    n_sealed=int(counts[-1]))
-    engine = engine_from_moments(mom, plan, penalty=penalty, mix=mix, intercept=bool(doc.get("intercept", True)))
-    return engine, doc.get("data", {})
+    mom = Moments(domain, D, y_shift, gram, counts, weighted)
+    plan = FoldPlan(scheme, k, R, seed, np.zeros((R, 0), dtype=np.int16), np.zeros(0, dtype=bool),
+                    test_fraction, n_rows=n_rows, n_sealed=int(counts[-1]))
+    engine = engine_from_moments(mom, plan, penalty=penalty, mix=mix,
+                                 intercept=True if isinstance(intercept, _Missing) else intercept)
+    return engine, {} if isinstance(data, _Missing) else data

@@ -1,13 +1,15 @@
 """Reading a user's table into validated columns; every problem names file, row and column.
 
-Rows are numbered as a spreadsheet shows them: the header is row 1, the
-first data row is row 2.
+Rows are numbered as a spreadsheet shows them: the header is row 1 and every line counts,
+blank lines, skipped lines and comment lines included. The readers of each format live in
+``core.textfile`` (CSV, semicolon, tab), ``core.sheet`` (.xlsx) and ``core.columnar``
+(Parquet); ``core.selection`` turns the selected columns into numbers for this module and for
+the streamed reader (``core.stream``) alike, so both read a file the same way.
 """
 
 from __future__ import annotations
 
 import hashlib
-import io
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -15,11 +17,13 @@ from pathlib import Path
 import numpy as np
 
 from .errors import DataError, message
-from .validate import MAX_ABS
+from .selection import Selection, check_positive
 from .validate import require_spread as spread
 
-__all__ = ["Table", "Column", "read_table", "read_frame", "parse_numbers", "pick_column", "text_format",
-           "exclude_rows", "check_positive", "columns_digest", "unit_of"]
+__all__ = ["Table", "Column", "read_table", "read_frame", "open_source", "column_names", "pick_column",
+           "exclude_rows", "check_positive", "columns_digest", "unit_of", "file_sha256", "READ_ROWS"]
+
+READ_ROWS = 65_536           # rows parsed at a time when a whole file is read
 
 _UNIT = re.compile(r"^\s*(?P<name>.*?)\s*[\[(](?P<unit>[^\])]+)[\])]\s*$")
 
@@ -70,20 +74,6 @@ class Table:
                 "rows": self.n, "x_min": float(xv.min()), "x_max": float(xv.max())}
 
 
-_POSITIVE = {"weights": ("a positive weight", "Drop the row or give it a positive weight"),
-             "uncertainty": ("a positive uncertainty", "Uncertainties must be > 0 (weight = 1/u^2)")}
-
-
-def check_positive(values: np.ndarray, role: str, column: str, fname: str, rows: np.ndarray) -> np.ndarray:
-    """Weights or uncertainties must be > 0; the message names the spreadsheet row."""
-    bad = np.flatnonzero(values <= 0)
-    if bad.size:
-        what, fix = _POSITIVE[role]
-        raise DataError(message(f"File '{fname}' column '{column}' row {int(rows[bad[0]])}", what,
-                                f"{values[bad[0]]:g}", fix))
-    return values
-
-
 def exclude_rows(table: "Table", rows) -> "Table":
     """The table without the given spreadsheet rows (header = row 1); recorded, never silent.
 
@@ -124,65 +114,6 @@ def columns_digest(digests: dict) -> str:
     return h.hexdigest()
 
 
-def read_frame(path: Path, sheet=None):
-    """(frame of text cells, raw bytes, notices) of one file; every problem named."""
-    import pandas as pd
-
-    if not path.exists():
-        raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
-    raw = path.read_bytes()
-    notices = []
-    if not raw.strip():
-        raise DataError(message(f"File '{path.name}'", "a header row and data rows", "an empty file"))
-    suffix = path.suffix.lower()
-    if suffix in (".xlsx", ".xlsm"):
-        if not raw.startswith(b"PK"):
-            raise DataError(message(f"File '{path.name}'", "a readable .xlsx workbook",
-                                    "a file that is not a zip archive"))
-        try:
-            frame = pd.read_excel(io.BytesIO(raw), sheet_name=sheet or 0, dtype=object)
-        except (ValueError, KeyError, OSError) as exc:
-            raise DataError(message(f"File '{path.name}'", "a readable .xlsx workbook", str(exc).split("\n")[0])) from exc
-        return frame, raw, notices
-    if suffix == ".parquet":
-        try:
-            frame = pd.read_parquet(io.BytesIO(raw))
-        except Exception as exc:  # pyarrow raises many unrelated types for a corrupt file
-            raise DataError(message(f"File '{path.name}'", "a readable Parquet file", type(exc).__name__)) from exc
-        return frame, raw, notices
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = raw.decode("latin-1")
-        notices.append(f"File '{path.name}' is not UTF-8; read it as Latin-1.")
-    sep, decimal = text_format(text)
-    try:
-        frame = pd.read_csv(io.StringIO(text), sep=sep, decimal=decimal, dtype=str,
-                            keep_default_na=False, skip_blank_lines=True)
-    except pd.errors.ParserError as exc:
-        m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
-        if m:
-            raise DataError(message(f"File '{path.name}' line {m.group(2)}", f"{m.group(1)} fields like the header",
-                                    m.group(3), "Check the delimiter and quoting of that line")) from None
-        raise DataError(message(f"File '{path.name}'", "rows with the same number of fields as the header",
-                                str(exc).strip().split("\n")[-1])) from None
-    except pd.errors.EmptyDataError as exc:
-        raise DataError(message(f"File '{path.name}'", "a header row and data rows", "no columns")) from exc
-    frame.attrs["decimal"] = decimal
-    return frame, raw, notices
-
-
-def text_format(text: str) -> tuple[str, str]:
-    """Delimiter (the most frequent of , ; tab in the header line) and decimal mark
-    (a comma for ';' files whose numbers are written like 1,5)."""
-    first = next((ln for ln in text.splitlines() if ln.strip()), "")
-    sep = max([",", ";", "\t"], key=first.count)
-    if first.count(sep) == 0:
-        sep = ","
-    decimal = "," if sep == ";" and re.search(r"\d,\d", text) else "."
-    return sep, decimal
-
-
 def pick_column(columns, spec, role: str, fname: str) -> str:
     """The column meant by ``spec``: exact name, 1-based position, or bare name of 'name [unit]'."""
     cols = [str(c) for c in columns]
@@ -190,6 +121,11 @@ def pick_column(columns, spec, role: str, fname: str) -> str:
         raise DataError(message(f"Column for {role}", "a column name or 1-based position", "none"))
     s = str(spec)
     if s in cols:
+        if s.isdigit() and 1 <= int(s) <= len(cols) and cols[int(s) - 1] != s:
+            raise DataError(message(f"Column '{s}' ({role}) in '{fname}'", "one meaning",
+                                    f"both the column named '{s}' (position {cols.index(s) + 1}) and the column "
+                                    f"at position {s} ('{cols[int(s) - 1]}')",
+                                    f"Pass --{role} with the name of the column you mean"))
         return s
     if s.isdigit() and 1 <= int(s) <= len(cols):
         return cols[int(s) - 1]
@@ -200,48 +136,93 @@ def pick_column(columns, spec, role: str, fname: str) -> str:
                             "no such column", "Pass --" + role + " with a column name or position"))
 
 
-def parse_numbers(frame, col: str, fname: str, blank_rows: str, decimal: str = ".", offset: int = 0):
-    """Float values and a missing-mask of one column; the first bad cell raises with its row.
 
-    ``offset`` is the number of data rows before this frame (for chunked reading)."""
+
+def _check_options(header, skip_rows, comment, sheet, suffix) -> None:
+    """The reader options, checked before the file is opened (one wording for page and command line)."""
+    if not isinstance(header, (bool, np.bool_)):
+        raise DataError(message("Option --no-header", "True or False", repr(header)))
+    if isinstance(skip_rows, bool) or not isinstance(skip_rows, (int, np.integer)) or skip_rows < 0:
+        raise DataError(message("Option --skip-rows", "a whole number >= 0", repr(skip_rows)))
+    if comment is not None and (not isinstance(comment, str) or len(comment) != 1
+                                or comment in "0123456789+-.,;\t\"' \r\n"):
+        raise DataError(message("Option --comment", "one character that cannot start a row of data "
+                                "(not a digit, sign, point, quote, space or delimiter)", repr(comment)))
+    if sheet is not None and suffix not in (".xlsx", ".xlsm"):
+        raise DataError(message("Option --sheet", "an .xlsx workbook", f"a {suffix or 'text'} file",
+                                "Leave out --sheet for this file"))
+
+
+def open_source(path, *, sheet=None, header: bool = True, skip_rows: int = 0, comment: str | None = None):
+    """The reader for one file by its extension: .xlsx/.xlsm, .parquet, else delimited text.
+
+    The source has ``fname``, ``columns``, ``notices``, ``comma_decimal``, ``check_types(columns)``
+    and ``chunks(columns, chunk_rows)`` yielding (spreadsheet rows, {column: cells}).
+    """
+    path = Path(path)
+    suffix = path.suffix.lower()
+    _check_options(header, skip_rows, comment, sheet, suffix)
+    if not path.exists():
+        raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
+    if suffix in (".xlsx", ".xlsm"):
+        from .sheet import SheetSource
+
+        return SheetSource(path, sheet=sheet, header=bool(header), skip_rows=int(skip_rows), comment=comment)
+    if suffix == ".parquet":
+        from .columnar import ParquetSource
+
+        used = [o for o, on in (("--no-header", not header), ("--skip-rows", skip_rows), ("--comment", comment)) if on]
+        if used:
+            raise DataError(message(f"Option {used[0]}", "a text file or a sheet", "a Parquet file",
+                                    "Parquet files name their columns themselves: leave the option out"))
+        return ParquetSource(path)
+    from .textfile import TextSource
+
+    return TextSource(path, header=bool(header), skip_rows=int(skip_rows), comment=comment)
+
+
+def column_names(path, **options) -> list[str]:
+    """The column names of a file (as ``read_table`` would name them), reading only its start."""
+    return list(open_source(path, **options).columns)
+
+
+def file_sha256(path) -> str:
+    """SHA-256 of the file's bytes, read in blocks."""
+    h = hashlib.sha256()
+    with Path(path).open("rb") as f:
+        for block in iter(lambda: f.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def read_frame(path, *, sheet=None, header: bool = True, skip_rows: int = 0, comment: str | None = None):
+    """(every column of the data rows as a pandas frame indexed by spreadsheet row, notices).
+
+    Cells are as read: texts for text files, the sheet's values, Parquet's typed columns."""
     import pandas as pd
 
-    raw = frame[col]
-    if raw.dtype == object or pd.api.types.is_string_dtype(raw.dtype):
-        text = raw.astype(str).str.strip()
-        miss = raw.isna().to_numpy() | (text == "").to_numpy() | text.str.lower().isin(["nan"]).to_numpy()
-        if decimal == ",":
-            text = text.str.replace(".", "", regex=False).str.replace(",", ".", regex=False)
-        vals = pd.to_numeric(text.where(~miss, None), errors="coerce").to_numpy(dtype=float)
-    else:
-        vals = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float)
-        miss = np.isnan(vals)
-    bad = np.flatnonzero(np.isnan(vals) & ~miss)
-    if bad.size:
-        i = int(bad[0])
-        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", "a number", repr(raw.iloc[i]),
-                                "Correct the cell, or empty it if the value is missing"))
-    inf = np.flatnonzero(np.isinf(vals))
-    if inf.size:
-        i = int(inf[0])
-        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", "a finite number",
-                                repr(raw.iloc[i]), "Replace infinite values or remove the row"))
-    big = np.flatnonzero(np.abs(np.nan_to_num(vals)) > MAX_ABS)
-    if big.size:
-        i = int(big[0])
-        raise DataError(message(f"File '{fname}' column '{col}' row {i + 2 + offset}", f"|value| <= {MAX_ABS:g}",
-                                f"{vals[i]:g}", "Rescale the column (change its unit)"))
-    return vals, miss
+    src = open_source(path, sheet=sheet, header=header, skip_rows=skip_rows, comment=comment)
+    parts = []
+    for rows, cells in src.chunks(src.columns, READ_ROWS):
+        cols = {}
+        for c, v in cells.items():
+            cols[c] = v.to_pandas() if hasattr(v, "to_pandas") else pd.Series(v, dtype=object)
+            cols[c].index = rows
+        parts.append(pd.DataFrame(cols, columns=src.columns))
+    frame = pd.concat(parts) if parts else pd.DataFrame(columns=src.columns)
+    return frame, tuple(src.notices)
 
 
 def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, fold=None,
-               blank_rows: str = "refuse", sheet=None, require_spread: bool = True) -> Table:
+               blank_rows: str = "refuse", sheet=None, require_spread: bool = True, header: bool = True,
+               skip_rows: int = 0, comment: str | None = None) -> Table:
     """Read one file and select its columns.
 
     Parameters
     ----------
     path : str or Path
-        CSV/TSV/semicolon text (delimiter and decimal comma detected), .xlsx or .parquet.
+        Comma-, semicolon- or tab-separated text (delimiter and each column's decimal mark
+        detected), .xlsx or .parquet. See docs/file-formats.md for the rules.
     x, y : str or int
         Column name (or 1-based position; a bare name also finds ``name [unit]``).
     weights : str, optional
@@ -252,77 +233,78 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         Group column (grouped folds) or explicit fold column.
     blank_rows : {"refuse", "skip"}
         Refuse rows with empty/NaN cells (listing them) or skip them (recorded).
+    sheet : str, optional
+        Worksheet of an .xlsx file (default: the first).
     require_spread : bool
         Refuse a single distinct x (needed to fit; not to apply a saved curve).
+    header : bool
+        False: the first row is data and columns are named by position ("1", "2", ...).
+    skip_rows : int
+        Lines (sheet rows) above the header to leave out; they still count in row numbers.
+    comment : str, optional
+        Lines starting with this character are left out (and still counted).
 
     Raises
     ------
     DataError
         Naming the file, row and column, and the fix.
     """
-    import pandas as pd
-
     path = Path(path)
     if blank_rows not in ("refuse", "skip"):
         raise DataError(message("Option --blank-rows", "'refuse' or 'skip'", repr(blank_rows)))
-    frame, raw, notices = read_frame(path, sheet)
-    fname = path.name
-    cols = [str(c) for c in frame.columns]
-    # pandas renames a repeated header "a" to "a.1"; report the original name
-    repeated = sorted({re.sub(r"\.\d+$", "", c) for c in cols
-                       if re.search(r"\.\d+$", c) and re.sub(r"\.\d+$", "", c) in cols})
-    if repeated:
-        raise DataError(message(f"File '{fname}' header", "distinct column names",
-                                "repeated " + ", ".join(repr(n) for n in repeated),
-                                "Rename the repeated columns"))
-    if len(frame) == 0:
-        raise DataError(message(f"File '{fname}'", "data rows below the header", "a header only"))
-    frame.columns = cols
-    decimal = frame.attrs.get("decimal", ".")
+    src = open_source(path, sheet=sheet, header=header, skip_rows=skip_rows, comment=comment)
+    fname = src.fname
     roles = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
-    chosen = {r: pick_column(frame.columns, s, r, fname) for r, s in roles.items() if s is not None}
-    numeric = {r: parse_numbers(frame, c, fname, blank_rows, decimal) for r, c in chosen.items()}
-    any_missing = np.zeros(len(frame), dtype=bool)
-    for r, (v, m) in numeric.items():
-        any_missing |= m
-    extra = {}
-    for role, spec in (("group", group), ("fold", fold)):
-        if spec is not None:
-            c = pick_column(frame.columns, spec, role, fname)
-            vals = frame[c].astype(str).str.strip().to_numpy()
-            any_missing |= (vals == "") | (vals == "nan")
-            extra[role] = (c, vals)
-    dropped = (np.flatnonzero(any_missing) + 2).tolist()
-    if dropped and blank_rows == "refuse":
-        shown = ", ".join(map(str, dropped[:12])) + (" ..." if len(dropped) > 12 else "")
-        raise DataError(message(f"File '{fname}' rows {shown}", "a value in every selected column",
-                                f"{len(dropped)} row(s) with empty cells",
-                                "Fill them in, or pass --blank-rows skip to leave those rows out"))
-    keep = ~any_missing
-    if keep.sum() == 0:
+    chosen = {r: pick_column(src.columns, s, r, fname) for r, s in roles.items() if s is not None}
+    src.check_types(list(chosen.values()))
+    extra = {r: pick_column(src.columns, s, r, fname) for r, s in (("group", group), ("fold", fold)) if s is not None}
+    sel = Selection(src, chosen)
+    parts = {r: [] for r in list(chosen) + list(extra) + ["rows"]}
+    dropped, n_read = [], 0
+    for rows, cells in src.chunks(list(dict.fromkeys([*chosen.values(), *extra.values()])), READ_ROWS):
+        vals, miss = sel.numbers(rows, cells)
+        labels = {}
+        for role, c in extra.items():
+            labels[role] = np.array([_label(v) for v in _as_list(cells[c])], dtype=object)
+            miss = miss | (labels[role] == "")
+        sel.note_blanks(rows[miss])
+        dropped.extend(rows[miss].tolist())
+        keep = ~miss
+        n_read += len(rows)
+        for role, v in {**vals, **labels}.items():
+            parts[role].append(v[keep])
+        parts["rows"].append(rows[keep])
+    if n_read == 0:
+        raise DataError(message(f"File '{fname}'", "data rows below the header", "a header only"))
+    sel.finish(blank_rows)
+    kept = {r: np.concatenate(v) for r, v in parts.items()}
+    if kept["rows"].size == 0:
         raise DataError(message(f"File '{fname}'", "at least one complete row", "none"))
-    xv = numeric["x"][0][keep]
-    yv = numeric["y"][0][keep] if "y" in numeric else None
-    w = None
-    wname = None
-    rows = np.flatnonzero(keep) + 2
-    for role in ("weights", "uncertainty"):
-        if role in numeric:
-            wname = chosen[role]
-            v = check_positive(numeric[role][0][keep], role, wname, fname, rows)
-            w = v if role == "weights" else 1.0 / v ** 2
+    xv = kept["x"]
     if require_spread:
         spread(xv, f"File '{fname}' column '{chosen['x']}'")
-    digests = {r: hashlib.sha256(np.ascontiguousarray(numeric[r][0][keep]).tobytes())
-               for r in ("x", "y", "weights", "uncertainty") if r in numeric}
-    h = columns_digest(digests)
+    digests = {r: hashlib.sha256(np.ascontiguousarray(kept[r]).tobytes()) for r in chosen}
+    notices = list(src.notices) + [n for n in [sel.notice()] if n]
+    wname = chosen.get("uncertainty", chosen.get("weights"))
     return Table(
         str(path), Column(chosen["x"], unit_of(chosen["x"]), xv),
-        Column(chosen["y"], unit_of(chosen["y"]), yv) if yv is not None else None,
-        w, wname,
-        extra["group"][1][keep] if "group" in extra else None,
-        extra["fold"][1][keep] if "fold" in extra else None,
-        int(len(frame)), dropped, hashlib.sha256(raw).hexdigest(), h, tuple(notices),
-        extra["group"][0] if "group" in extra else None, extra["fold"][0] if "fold" in extra else None,
-        "uncertainty" if "uncertainty" in numeric else ("relative" if "weights" in numeric else None),
-        np.flatnonzero(keep) + 2)
+        Column(chosen["y"], unit_of(chosen["y"]), kept["y"]) if "y" in chosen else None,
+        sel.weights(kept), wname, kept.get("group"), kept.get("fold"), n_read, dropped,
+        file_sha256(path), columns_digest(digests), tuple(notices),
+        extra.get("group"), extra.get("fold"),
+        "uncertainty" if "uncertainty" in chosen else ("relative" if "weights" in chosen else None),
+        kept["rows"])
+
+
+def _as_list(cells):
+    return cells.to_pylist() if hasattr(cells, "to_pylist") else cells
+
+
+def _label(v) -> str:
+    """A group or fold cell as text ('' for an empty cell)."""
+    if v is None:
+        return ""
+    if isinstance(v, float) and v != v:
+        return ""
+    t = str(v).strip()
+    return "" if t.lower() == "nan" else t

@@ -5,11 +5,16 @@ from __future__ import annotations
 
 import sys
 
+from core import defaults
+from core.cells import is_number
 from core.files import write_atomic
 
-from core import defaults
+from .common import STDOUT, add_blank_rows, add_force, add_out, add_reader_args, load_rows
 
-from .common import add_blank_rows, add_force, add_out, add_sheet, load_rows
+# A spreadsheet opening the CSV treats a cell starting with one of these as a formula. Common
+# practice (OWASP, "CSV Injection"): prefix such text cells with a single quote so they show as
+# text. Numbers, negative ones included, are left as they are.
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 def add_parser(subparsers):
@@ -17,13 +22,13 @@ def add_parser(subparsers):
     p.add_argument("choice", help="choice file (JSON)")
     p.add_argument("data", help="rows to predict (CSV/TSV, .xlsx, .parquet)")
     p.add_argument("--x", required=True)
-    add_out(p, help="output CSV (default: standard output)")
+    add_out(p, help="output CSV (default, or '-': standard output)")
     p.add_argument("--band", choices=["reading", "curve"], default="reading",
                    help="band written beside each prediction: where one new reading lies (default) or where "
                         "the curve lies")
     p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the band covers (default 0.95)")
     add_blank_rows(p)
-    add_sheet(p)
+    add_reader_args(p)
     add_force(p)
     return p
 
@@ -34,7 +39,8 @@ def run(args, out) -> int:
     c = Choice.load(args.choice)
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
-    t, frame = load_rows(args.data, args.x, None, args.blank_rows, args.sheet)
+    t, frame = load_rows(args, frame=True)
+    frame = as_text_safe(frame)
     outside = _add_predictions(c, t.x.values, frame, args.band, args.coverage)
     _write_table(args, frame, out)
     if outside.any():
@@ -44,6 +50,26 @@ def run(args, out) -> int:
     if not c.has_band:
         print("note: no band: the choice has lambda > 0 (classical bands need lambda = 0).", file=sys.stderr)
     return 0
+
+
+def guard_cell(value):
+    """A copied text cell that a spreadsheet would run as a formula, prefixed with ' (see FORMULA_START);
+    numbers and other cells unchanged."""
+    if isinstance(value, str) and value.startswith(FORMULA_START) and not is_number(value, comma_decimal=True):
+        return "'" + value
+    return value
+
+
+def as_text_safe(frame):
+    """The input's columns (names and text cells) with every formula-like text guarded."""
+    import pandas as pd
+
+    frame = frame.copy()
+    frame.columns = [guard_cell(str(c)) for c in frame.columns]
+    for c in frame.columns:
+        if frame[c].dtype == object or pd.api.types.is_string_dtype(frame[c].dtype):
+            frame[c] = frame[c].map(guard_cell).astype(object)
+    return frame
 
 
 def _add_predictions(c, x, frame, band, coverage):
@@ -62,9 +88,9 @@ def _add_predictions(c, x, frame, band, coverage):
 
 
 def _write_table(args, frame, out):
-    """The frame as CSV to --out, or to standard output."""
+    """The frame as CSV to --out, or to standard output (no --out, or '-')."""
     text = frame.to_csv(index=False)
-    if args.out:
+    if args.out and args.out != STDOUT:
         write_atomic(args.out, text, force=args.force)
         print(f"wrote {len(frame)} predictions to {args.out}", file=out)
     else:

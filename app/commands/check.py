@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from .common import add_blank_rows, add_force, add_json, add_sheet, load_rows, write_json
+from .common import add_blank_rows, add_force, add_json, add_reader_args, load_rows, text_out, write_json
 
 
 def add_parser(subparsers):
@@ -14,8 +14,8 @@ def add_parser(subparsers):
     p.add_argument("--x", required=True)
     p.add_argument("--y", required=True)
     add_blank_rows(p)
-    add_sheet(p)
-    add_json(p)
+    add_reader_args(p)
+    add_json(p, help="write the scores as JSON here")
     add_force(p)
     return p
 
@@ -27,12 +27,12 @@ def run(args, out) -> int:
     c = Choice.load(args.choice)
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
-    t, _ = load_rows(args.data, args.x, args.y, args.blank_rows, args.sheet)
+    t, _ = load_rows(args, args.y)
     sc = score(c, t.x.values, t.y.values)
-    _print_scores(c, sc, out)
+    _print_scores(c, sc, text_out(args, out))
     _warn_about_rows(c, t, sc)
     if args.json:
-        write_json(args.json, sc, force=args.force)
+        write_json(args.json, sc, force=args.force, out=out)
     return 0
 
 

@@ -18,16 +18,18 @@ from core.files import write_atomic
 from core.table import exclude_rows, read_table
 
 __all__ = [
-    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "Parser", "Progress", "add_blank_rows", "add_data_args", "add_degree_lambda",
-    "add_fold_args", "add_folds", "add_force", "add_json", "add_out", "add_penalty_args",
-    "add_repeats", "add_seed", "add_sheet", "describe_os_error", "fmt", "load_rows", "output_paths",
-    "parse_degrees", "parse_grid", "read_data", "write_json",
+    "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "STDOUT", "Parser", "Progress", "add_blank_rows", "add_data_args",
+    "add_degree_lambda", "add_fold_args", "add_folds", "add_force", "add_json", "add_out", "add_penalty_args",
+    "add_reader_args", "add_repeats", "add_seed", "add_sheet", "check_cells", "describe_os_error", "fmt",
+    "load_rows", "output_paths", "parse_degrees", "parse_grid", "read_data", "reader_options", "text_out",
+    "write_json", "write_output",
 ]
 
 EXIT_BAD_INPUT = 2
 
 # Options naming a file or folder a command writes; every other path a command opens is read.
 OUTPUT_OPTIONS = ("json", "out", "save", "save_stats", "images")
+STDOUT = "-"         # as an output path: write to standard output instead of a file
 
 
 class Parser(argparse.ArgumentParser):
@@ -94,9 +96,26 @@ def add_sheet(p, help=None):
     p.add_argument("--sheet", help=help)
 
 
+def add_reader_args(p):
+    """How the data file is read: --sheet, --no-header, --skip-rows, --comment."""
+    add_sheet(p, help="worksheet of an .xlsx file (default: the first)")
+    p.add_argument("--no-header", action="store_true",
+                   help="the first row is data, not column names; columns are then named 1, 2, ...")
+    p.add_argument("--skip-rows", type=int, default=0, metavar="N",
+                   help="leave out N lines (sheet rows) above the header; they still count in row numbers")
+    p.add_argument("--comment", metavar="CHAR",
+                   help="leave out lines that start with CHAR (e.g. '#'); they still count in row numbers")
+
+
+def reader_options(args) -> dict:
+    """The reader keywords of ``core.table.read_table`` from the parsed options."""
+    return {"sheet": args.sheet, "header": not args.no_header, "skip_rows": args.skip_rows,
+            "comment": args.comment}
+
+
 def add_data_args(p, need_y=True):
     """The data file and its columns: data, --x, --y, --weights, --uncertainty, --blank-rows, --sheet,
-    --through-origin, --exclude."""
+    --no-header, --skip-rows, --comment, --through-origin, --exclude."""
     p.add_argument("data", help="CSV/TSV, .xlsx or .parquet file with a header row")
     p.add_argument("--x", required=True, help="x column (name or 1-based position)")
     if need_y:
@@ -104,7 +123,7 @@ def add_data_args(p, need_y=True):
     p.add_argument("--weights", help="weight column (positive)")
     p.add_argument("--uncertainty", help="standard-uncertainty column u (weight = 1/u^2)")
     add_blank_rows(p)
-    add_sheet(p, help="worksheet of an .xlsx file (default: the first)")
+    add_reader_args(p)
     p.add_argument("--through-origin", action="store_true", help="fit a curve through the origin (no constant term)")
     p.add_argument("--exclude", default="", help="spreadsheet rows to leave out, e.g. 7,19 (recorded)")
 
@@ -142,11 +161,22 @@ def add_fold_args(p, repeats):
 
 
 def add_json(p, help=None):
-    p.add_argument("--json", help=help)
+    p.add_argument("--json", help=(help or "write the result as JSON here") + " ('-': standard output, and the "
+                   "printed text goes to standard error)")
 
 
 def add_out(p, help=None, default=None):
     p.add_argument("--out", default=default, help=help)
+
+
+def check_cells(options: str, counts: dict) -> None:
+    """Refuse, before any work, a request whose product of counts exceeds ``defaults.MAX_CELLS``."""
+    total = math.prod(counts.values())
+    if total > defaults.MAX_CELLS:
+        raise ParameterError(message(
+            f"Options {options}", f"at most {defaults.MAX_CELLS:,} cells to score "
+            f"({' x '.join(counts)})", " x ".join(f"{v:,}" for v in counts.values()) + f" = {total:,}",
+            "Use fewer " + ", ".join(list(counts)[:-1]) + " or " + list(counts)[-1]))
 
 
 def add_force(p, help=None):
@@ -158,7 +188,7 @@ def add_force(p, help=None):
 def read_data(args, extra=None):
     """The table named by the data-file arguments; exclusions, notes and dropped rows go to stderr."""
     table = read_table(args.data, x=args.x, y=args.y, weights=args.weights,
-                       uncertainty=args.uncertainty, blank_rows=args.blank_rows, sheet=args.sheet,
+                       uncertainty=args.uncertainty, blank_rows=args.blank_rows, **reader_options(args),
                        **(extra or {}))
     if getattr(args, "exclude", ""):
         try:
@@ -177,25 +207,49 @@ def read_data(args, extra=None):
     return table
 
 
-def load_rows(path, x, y, blank_rows, sheet):
-    """Validated x (and y) plus the original frame's kept rows, for apply and check."""
+def load_rows(args, y=None, *, frame=False):
+    """Validated x (and y) of the data file (notes to stderr), plus, with ``frame``, every column of
+    the kept rows (for apply's output), matched by spreadsheet row."""
     from core.table import read_frame
 
-    t = read_table(path, x=x, y=y, blank_rows=blank_rows, sheet=sheet, require_spread=False)
-    frame, _, _ = read_frame(Path(path), sheet)
-    drop = set(r - 2 for r in t.rows_dropped)
-    frame = frame.iloc[[i for i in range(len(frame)) if i not in drop]].reset_index(drop=True)
-    return t, frame
+    t = read_table(args.data, x=args.x, y=y, blank_rows=args.blank_rows, require_spread=False,
+                   **reader_options(args))
+    for note in t.notices:
+        print(f"note: {note}", file=sys.stderr)
+    if t.rows_dropped:
+        print(f"note: skipped {len(t.rows_dropped)} row(s) with blank cells "
+              f"(rows {', '.join(map(str, t.rows_dropped[:10]))}{' ...' if len(t.rows_dropped) > 10 else ''}).",
+              file=sys.stderr)
+    if not frame:
+        return t, None
+    rows, _ = read_frame(args.data, **reader_options(args))
+    return t, rows.loc[t.row_numbers].reset_index(drop=True)
 
 
-def write_json(path, doc, *, force: bool) -> Path:
-    """``doc`` as indented JSON at ``path`` (atomic; refuses to overwrite unless ``force``)."""
-    return write_atomic(path, json.dumps(doc, indent=2), force=force)
+def write_output(path, text: str, *, force: bool, out) -> Path | None:
+    """``text`` to the file ``path`` (atomic; refuses to overwrite unless ``force``), or to ``out``
+    when ``path`` is "-"; returns the path written, None for standard output."""
+    if str(path) == STDOUT:
+        out.write(text if text.endswith("\n") else text + "\n")
+        out.flush()
+        return None
+    return write_atomic(path, text, force=force)
+
+
+def write_json(path, doc, *, force: bool, out=None) -> Path | None:
+    """``doc`` as indented JSON at ``path`` (atomic; refuses to overwrite unless ``force``), or on
+    standard output for "-"."""
+    return write_output(path, json.dumps(doc, indent=2), force=force, out=out or sys.stdout)
+
+
+def text_out(args, out):
+    """Where a command prints its text: ``out``, or stderr when --json sends the JSON to standard output."""
+    return sys.stderr if str(getattr(args, "json", None)) == STDOUT else out
 
 
 def output_paths(args) -> list[str]:
     """The paths a parsed command line writes to (the options in OUTPUT_OPTIONS that it has)."""
-    return [str(v) for v in (getattr(args, k, None) for k in OUTPUT_OPTIONS) if v]
+    return [str(v) for v in (getattr(args, k, None) for k in OUTPUT_OPTIONS) if v and str(v) != STDOUT]
 
 
 def describe_os_error(exc: OSError, outputs=()) -> str:

@@ -7,9 +7,10 @@ import numpy as np
 
 import core
 from core import defaults
-from core.table import read_table
+from core.table import exclude_rows, read_table
 
-from .common import add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data, write_json
+from .common import (add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data,
+                     reader_options, text_out, write_json)
 
 
 def add_parser(subparsers):
@@ -32,6 +33,7 @@ def add_parser(subparsers):
 
 
 def run(args, out) -> int:
+    json_out, out = out, text_out(args, out)
     t = read_data(args)
     r = core.fit(t.x.values, t.y.values, args.degree, args.lam, weights=t.weights,
                  intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
@@ -41,11 +43,11 @@ def run(args, out) -> int:
     if args.influence:
         _print_influence(r, t, out)
     if args.bias_variance and args.replicates:
-        _print_replicate_variance(args, out)
+        _print_replicate_variance(args, t, out)
     elif args.bias_variance:
         _print_bias_variance(args, r, t, out)
     if args.json:
-        _write_fit_json(args, r, t)
+        _write_fit_json(args, r, t, json_out)
     return 0
 
 
@@ -97,11 +99,15 @@ def _print_influence(r, t, out):
                        for n, i in zip(rows, inf.flagged)) or "none"), file=out)
 
 
-def _print_replicate_variance(args, out):
-    """Variance and noise estimated from the repeated data sets named by --replicates."""
+def _print_replicate_variance(args, t, out):
+    """Variance and noise estimated from the repeated data sets named by --replicates (the rows
+    excluded with --exclude left out here too)."""
     from core.uncertainty import bias_variance_from_sets
 
-    rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, blank_rows=args.blank_rows, sheet=args.sheet)
+    rt = read_table(args.data, x=args.x, y=args.y, group=args.replicates, blank_rows=args.blank_rows,
+                    **reader_options(args))
+    if t.excluded_rows:
+        rt = exclude_rows(rt, t.excluded_rows)
     sets = [(rt.x.values[rt.groups == g], rt.y.values[rt.groups == g]) for g in np.unique(rt.groups)]
     grid = np.linspace(rt.x.values.min(), rt.x.values.max(), 101)
     est = bias_variance_from_sets(sets, args.degree, args.lam, grid, intercept=not args.through_origin,
@@ -123,9 +129,9 @@ def _print_bias_variance(args, r, t, out):
           f"{bv.simulated_variance:.4g})", file=out)
 
 
-def _write_fit_json(args, r, t):
+def _write_fit_json(args, r, t, out):
     """The fit and the data it came from (file, fingerprint, columns, excluded rows) as JSON."""
     doc = r.to_dict()
     doc["data"] = {"file": t.path, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name,
                    "excluded_rows": list(t.excluded_rows)}
-    write_json(args.json, doc, force=args.force)
+    write_json(args.json, doc, force=args.force, out=out)

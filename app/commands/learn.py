@@ -5,8 +5,8 @@ from __future__ import annotations
 import core
 from core import defaults
 
-from .common import (add_data_args, add_degree_lambda, add_fold_args, add_force, add_json, fmt, parse_grid,
-                     read_data, write_json)
+from .common import (add_data_args, add_degree_lambda, add_fold_args, add_force, add_json, check_cells, fmt,
+                     parse_grid, read_data, text_out, write_json)
 
 
 def add_parser(subparsers):
@@ -15,20 +15,22 @@ def add_parser(subparsers):
     add_degree_lambda(p)
     p.add_argument("--sizes", default="0.1:1:10", help="fractions START:STOP:COUNT")
     add_fold_args(p, repeats=defaults.LEARN_REPEATS)
-    add_json(p)
+    add_json(p, help="write the learning curve as JSON here")
     add_force(p)
     return p
 
 
 def run(args, out) -> int:
-    t = read_data(args)
     sizes = parse_grid(args.sizes, log=False, option="--sizes")
+    check_cells("--folds, --repeats and --sizes", {"folds": args.folds, "repeats": args.repeats,
+                                                    "sizes": int(sizes.size)})
+    t = read_data(args)
     lc = core.size_curve(t.x.values, t.y.values, args.degree, args.lam, sizes=sizes,
                          folds=args.folds, repeats=args.repeats, seed=args.seed,
                          weights=t.weights, intercept=not args.through_origin)
-    _print_curve(lc, out)
+    _print_curve(lc, text_out(args, out))
     if args.json:
-        write_json(args.json, lc.to_dict(), force=args.force)
+        write_json(args.json, lc.to_dict(), force=args.force, out=out)
     return 0
 
 

@@ -20,7 +20,8 @@ from core.errors import ParameterError, message
 from core.table import unit_of
 
 from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
-                     add_seed, parse_degrees, parse_grid, read_data, write_json)
+                     add_seed, check_cells, parse_degrees, parse_grid, read_data, reader_options, text_out,
+                     write_json)
 
 
 def add_parser(subparsers):
@@ -63,11 +64,15 @@ def add_parser(subparsers):
 def run(args, out) -> int:
     _check_options(args)
     degrees, lams = _grid(args)
+    check_cells("--folds, --repeats, --degrees and --lambdas",
+                {"folds": 1 if args.loo else args.folds, "repeats": args.repeats, "degrees": len(degrees),
+                 "lambdas": defaults.DEFAULT_GRID_MAX if lams is None else len(lams)})
     s, t = _sweep(args, degrees, lams)
+    json_out, out = out, text_out(args, out)
     _print_recommendations(s, t, out)
     _print_by_degree(s, out)
     if args.json:
-        write_json(args.json, s.to_dict(), force=args.force)
+        write_json(args.json, s.to_dict(), force=args.force, out=json_out)
     if args.save:
         _save_choice(args, t, s, out)
     if args.save_stats:
@@ -82,6 +87,8 @@ def _check_options(args):
     if args.loo and args.save_stats:
         raise ParameterError(message("Option --save-stats", "k-fold cross-validation (the file holds per-fold sums)",
                                      "--loo", "Leave-one-out needs the rows themselves; drop --loo to save statistics"))
+    if not 1 <= args.chunk_rows <= 100_000_000:
+        raise ParameterError(message("Option --chunk-rows", "a whole number from 1 to 100,000,000", args.chunk_rows))
 
 
 def _grid(args):
@@ -130,7 +137,10 @@ def _sweep_streamed(args, degrees, lams):
                        uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
                        test_fraction=args.test_fraction, intercept=not args.through_origin,
                        penalty=args.penalty, mix=args.mix,
-                       blank_rows=args.blank_rows, chunk_rows=args.chunk_rows, progress=Progress())
+                       blank_rows=args.blank_rows, chunk_rows=args.chunk_rows, progress=Progress(),
+                       **reader_options(args))
+    for note in sc.notices:
+        print(f"note: {note}", file=sys.stderr)
     if sc.rows_dropped:
         print(f"note: skipped {len(sc.rows_dropped)} row(s) with blank cells.", file=sys.stderr)
     return s, sc
@@ -140,6 +150,13 @@ def _sweep_engine(args, degrees, lams):
     from core.distributed import expand_paths, sweep_files
 
     _refuse_row_options(args, "--engine")
+    used = [name for name, on in (("--sheet", args.sheet), ("--no-header", args.no_header),
+                                  ("--skip-rows", args.skip_rows), ("--comment", args.comment)) if on]
+    if used:
+        raise ParameterError(message(f"Option {used[0]}", "one file read whole or with --stream",
+                                     "--engine (or a folder or a pattern of files)",
+                                     "Sweeps over many files read files whose header is their first line: "
+                                     "drop the option or sweep one file"))
     s, info = sweep_files(expand_paths(args.data), degrees, lams, x=args.x, y=args.y, weights=args.weights,
                           uncertainty=args.uncertainty, folds=args.folds, repeats=args.repeats, seed=args.seed,
                           test_fraction=args.test_fraction, intercept=not args.through_origin,
@@ -165,6 +182,21 @@ def _files_label(files):
     return f"{len(files)} files ({Path(files[0]).name} ... {Path(files[-1]).name})"
 
 
+def _rmse(mse) -> str:
+    """sqrt(MSE) for printing; 0 for an exact fit (and a rounding-level negative), '-' for none."""
+    if mse is None or not math.isfinite(mse):
+        return "-"
+    return f"{math.sqrt(max(mse, 0.0)):.6g}"
+
+
+def _error_text(rec) -> str:
+    """'CV RMSE r +/- se' (the SE of the RMSE from the SE of the MSE), or the exact-fit wording."""
+    if not rec.cv_mse > 0:
+        return "exact fit (CV error 0)"
+    return (f"CV RMSE {math.sqrt(rec.cv_mse):.6g} "
+            f"+/- {rec.cv_mse_se / (2 * math.sqrt(rec.cv_mse)):.2g}")
+
+
 def _print_recommendations(s, t, out):
     """Rows and folds used, then each rule's recommendation with its edge-of-grid notes."""
     n_rows = t.rows_used if hasattr(t, "rows_used") else t.n
@@ -173,8 +205,7 @@ def _print_recommendations(s, t, out):
           f"{f['scheme']} folds k={f['k']}, repeats={f['repeats']}, seed={f['seed']}", file=out)
     for name, rec in s.recommended.items():
         print(f"recommended ({name}): degree {rec.degree}, lambda {rec.lam:.4g} "
-              f"(grid {rec.grid_lambda:.3g}); CV RMSE {math.sqrt(rec.cv_mse):.6g} "
-              f"+/- {rec.cv_mse_se / (2 * math.sqrt(rec.cv_mse)):.2g}; effective df {rec.effective_df:.3g}",
+              f"(grid {rec.grid_lambda:.3g}); {_error_text(rec)}; effective df {rec.effective_df:.3g}",
               file=out)
         if rec.degree_at_edge:
             print(f"  note: degree {rec.degree} is the top of the searched range; widen --degrees.", file=out)
@@ -183,13 +214,20 @@ def _print_recommendations(s, t, out):
 
 
 def _print_by_degree(s, out):
-    """One line per degree at its best lambda: CV RMSE, its standard error and the training RMSE."""
+    """One line per degree at its best lambda: CV RMSE, its standard error and the training RMSE.
+
+    A degree without any score (the lasso leaves out degrees whose powers are too collinear; the
+    warning says which) is listed as such instead of being given a number."""
     print("\nCV RMSE by degree (best lambda of each):", file=out)
     print(f"{'degree':>6}  {'lambda':>10}  {'CV RMSE':>12}  {'SE(MSE)':>10}  {'train RMSE':>12}", file=out)
     for i, d in enumerate(s.degrees):
-        j = int(np.nanargmin(s.cv_mse[i]))
-        print(f"{d:>6}  {s.lambdas[j]:>10.3g}  {math.sqrt(s.cv_mse[i, j]):>12.6g}  "
-              f"{s.cv_mse_se[i, j]:>10.3g}  {math.sqrt(s.train_mse[i, j]):>12.6g}", file=out)
+        row = np.asarray(s.cv_mse[i], dtype=float)
+        if not np.isfinite(row).any():
+            print(f"{d:>6}  {'-':>10}  {'not scored (see the warning)':>12}", file=out)
+            continue
+        j = int(np.nanargmin(row))
+        print(f"{d:>6}  {s.lambdas[j]:>10.3g}  {_rmse(s.cv_mse[i, j]):>12}  "
+              f"{s.cv_mse_se[i, j]:>10.3g}  {_rmse(s.train_mse[i, j]):>12}", file=out)
 
 
 def _save_choice(args, t, s, out):

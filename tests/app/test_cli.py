@@ -36,6 +36,7 @@ def test_fit_prints_table_and_writes_json(tmp_path, capsys):
 
 
 def test_sweep_json_layout(tmp_path, capsys):
+    """sweep --json holds the degrees, lambdas (0 first with --with-zero), the CV surface and both recommendations."""
     out = tmp_path / "s.json"
     code, text, _ = run(["sweep", FURNACE, "--x", 1, "--y", "yield", "--degrees", "0-6",
                          "--lambdas", "1e-4:1e2:7", "--with-zero", "--folds", 5, "--json", out], capsys)
@@ -65,6 +66,7 @@ def test_learn_prints_core_learning_curve(capsys, tmp_path):
 
 
 def test_existing_output_is_not_overwritten_without_force(tmp_path, capsys):
+    """An existing output is kept without --force and replaced with it."""
     out = tmp_path / "fit.json"
     out.write_text("keep me")
     code, _, err = run(["fit", PONTIUS, "--x", "x", "--y", "y", "--degree", 1, "--json", out], capsys)
@@ -82,6 +84,7 @@ def test_existing_output_is_not_overwritten_without_force(tmp_path, capsys):
     (["sweep", PONTIUS, "--x", "x", "--y", "y", "--lambdas", "0:1:5"], "positive START and STOP"),
 ])
 def test_bad_input_exits_2_with_message(args, text, capsys):
+    """Bad paths, columns and options exit 2 with a message naming them."""
     code, _, err = run(args, capsys)
     assert code == 2 and text in err and "Traceback" not in err
 
@@ -94,6 +97,7 @@ def test_console_script_exit_code():
 
 
 def test_grid_parsers():
+    """Degree lists and log grids parse as written; degrees above the cap are refused."""
     assert parse_degrees("0-3,7") == [0, 1, 2, 3, 7]
     np.testing.assert_allclose(parse_grid("1e-2:1e2:5", log=True, option="--lambdas"), [1e-2, 1e-1, 1, 10, 100])
     with pytest.raises(ParameterError):

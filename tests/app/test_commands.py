@@ -69,7 +69,7 @@ def test_output_path_that_is_a_folder_is_refused(tmp_path, capsys):
     folder = tmp_path / "results"
     folder.mkdir()
     assert_refused(fit_args(PONTIUS, "--json", folder), capsys,
-                   f"Output '{folder}': expected a path that does not exist yet, got an existing file. "
+                   f"Output '{folder}': expected a path that does not exist yet, got an existing folder. "
                    "Choose another name or pass --force to overwrite.")
     assert_refused(fit_args(PONTIUS, "--json", folder, "--force"), capsys,
                    f"Output '{folder}': expected a file that can be written, got a folder. "
@@ -103,10 +103,14 @@ def test_refused_read_is_reported_for_any_user(tmp_path, capsys, monkeypatch):
     data = tmp_path / "locked.csv"
     data.write_bytes(PONTIUS.read_bytes())
 
-    def refuse(self):
-        raise PermissionError(13, "Permission denied", str(self))
+    opened = pathlib.Path.open
 
-    monkeypatch.setattr(pathlib.Path, "read_bytes", refuse)
+    def refuse(self, *args, **kwargs):
+        if self == data:
+            raise PermissionError(13, "Permission denied", str(self))
+        return opened(self, *args, **kwargs)
+
+    monkeypatch.setattr(pathlib.Path, "open", refuse)
     assert_refused(fit_args(data), capsys,
                    f"File '{data}': expected a file that can be read, got permission denied. "
                    "Change the file's permissions or copy it somewhere readable.")

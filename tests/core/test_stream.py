@@ -23,6 +23,7 @@ def csv(tmp_path):
 
 @pytest.mark.parametrize("chunk_rows", [37, 1000, 100000])
 def test_streamed_surface_equals_in_memory(csv, chunk_rows):
+    """Streamed in chunks of any size, the surface and fingerprints equal the in-memory sweep's."""
     t = read_table(csv, x="time", y="signal", weights="w")
     lams = [1e-4, 1e-2, 1.0]
     ref = core.sweep(t.x.values, t.y.values, range(0, 9), lams, folds=5, seed=3, weights=t.weights, row_keys=t.row_numbers,
@@ -35,6 +36,7 @@ def test_streamed_surface_equals_in_memory(csv, chunk_rows):
 
 
 def test_parquet_streams_too(csv, tmp_path):
+    """A Parquet copy of the CSV streams to the same CV surface."""
     frame = pd.read_csv(csv)
     pq = tmp_path / "log.parquet"
     frame.to_parquet(pq)
@@ -44,6 +46,7 @@ def test_parquet_streams_too(csv, tmp_path):
 
 
 def test_bad_cell_in_a_later_chunk_names_its_row(tmp_path):
+    """A bad cell in a later chunk is reported with its spreadsheet row."""
     lines = ["x,y"] + [f"{i},{2 * i}" for i in range(500)]
     lines[401] = "400,oops"
     p = tmp_path / "d.csv"
@@ -53,6 +56,7 @@ def test_bad_cell_in_a_later_chunk_names_its_row(tmp_path):
 
 
 def test_fit_from_statistics_matches_rows(csv):
+    """A fit from the per-fold statistics equals the fit from the rows."""
     from core.fit import fit_from_engine
 
     t = read_table(csv, x="time", y="signal")

@@ -20,12 +20,14 @@ ROOT = Path(__file__).resolve().parents[2]
 
 
 def test_units_are_kept_from_headers():
+    """Units written in headers ('load [kN]') are kept, and bare names find their columns."""
     assert unit_of("load [kN]") == "kN" and unit_of("T (degC)") == "degC" and unit_of("plain") is None
     t = read_table(ROOT / "sample_sets" / "beam_deflection.csv", x="load", y="deflection")
     assert (t.x.name, t.x.unit, t.y.unit) == ("load [kN]", "kN", "mm")
 
 
 def test_xlsx_and_parquet_read_like_csv(tmp_path):
+    """The same invented frame as .xlsx and .parquet reads to the CSV's values and fingerprint."""
     df = pd.DataFrame({"x [s]": np.arange(6.0), "y": np.arange(6.0) ** 2, "w": np.ones(6)})
     df.to_excel(tmp_path / "d.xlsx", index=False)
     df.to_parquet(tmp_path / "d.parquet")
@@ -39,6 +41,7 @@ def test_xlsx_and_parquet_read_like_csv(tmp_path):
 
 
 def test_fingerprint_tracks_bytes_and_values(tmp_path):
+    """The file fingerprint follows the bytes; the columns fingerprint follows the values."""
     a = tmp_path / "a.csv"; a.write_text("x,y\n1,2\n2,3\n")
     b = tmp_path / "b.csv"; b.write_text("x,y\n1.0,2.0\n2.0,3.0\n")
     ta, tb = read_table(a, x="x", y="y"), read_table(b, x="x", y="y")
@@ -47,6 +50,7 @@ def test_fingerprint_tracks_bytes_and_values(tmp_path):
 
 
 def test_uncertainty_becomes_inverse_square_weight(tmp_path):
+    """An uncertainty column u becomes the weight 1/u^2."""
     p = tmp_path / "u.csv"; p.write_text("x,y,u\n1,2,0.5\n2,3,2\n")
     t = read_table(p, x="x", y="y", uncertainty="u")
     np.testing.assert_allclose(t.weights, [4.0, 0.25])
