@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from .basis import Domain
+from .choice_check import check_integrity, content_digest
 from .choice_legacy import upgrade_v1
 from .choice_schema import FORMAT, VERSION, schema
 from .curve import Curve
@@ -31,6 +32,7 @@ from .bands import ReadingModel, band_limits
 __all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION"]
 
 SCHEMA = schema()
+MAX_CHARS = 64 * 2**20      # a choice file is a few kilobytes; anything near this is not one
 
 
 def _field(err) -> str:
@@ -61,9 +63,11 @@ class Choice:
         notices = ()
         if doc.get("format") == FORMAT and doc.get("version") == 1:
             doc = upgrade_v1(doc)
+            doc["digest"] = {"algorithm": "sha256", "value": content_digest(doc)}
             notices = ("This choice file was written by curvewright 0.1 (format version 1); it was read with "
                        "today's names (rules 'lowest'/'simplest', coefficient rows power/value/standard_error). "
-                       "Every number is as written.",)
+                       "Every number is as written. Files of that version carry no digest: edits to them cannot "
+                       "be detected.",)
         elif doc.get("format") == FORMAT and doc.get("version") != VERSION:
             raise DataError(message("Choice file field 'version'", f"1 or {VERSION}", repr(doc.get("version")),
                                     "This file was written by another version of curvewright"))
@@ -72,23 +76,22 @@ class Choice:
             e = errors[0]
             raise DataError(message(f"Choice file field '{_field(e)}'", "a value matching the schema",
                                     e.message[:200]))
-        m = doc["model"]
-        if len(m["legendre_coefficients"]) != m["degree"] + 1:
-            raise DataError(message("Choice file field 'model/legendre_coefficients'",
-                                    f"{m['degree'] + 1} numbers for degree {m['degree']}",
-                                    len(m["legendre_coefficients"])))
-        v = doc["validation"]
-        if not math.isclose(v["cv_rmse"], math.sqrt(v["cv_mse"]), rel_tol=1e-9):
-            raise DataError(message("Choice file field 'validation/cv_rmse'", "the square root of cv_mse",
-                                    v["cv_rmse"], "The file has been edited; re-export it"))
+        check_integrity(doc)
         return cls(doc, notices)
 
     @classmethod
     def from_json(cls, text: str) -> "Choice":
+        if len(text) > MAX_CHARS:
+            raise DataError(message("Choice file", f"at most {MAX_CHARS // 2**20} MB of text", f"{len(text):,} characters"))
         try:
             doc = json.loads(text, parse_constant=_refuse_constant)
         except json.JSONDecodeError as exc:
             raise DataError(message("Choice file", "valid JSON", f"{exc.msg} at line {exc.lineno}")) from None
+        except RecursionError:
+            raise DataError(message("Choice file", "JSON nested as a choice file is", "nesting too deep to read")) \
+                from None
+        except ValueError as exc:     # e.g. an integer with more digits than Python reads
+            raise DataError(message("Choice file", "numbers a choice file can hold", str(exc)[:120])) from None
         return cls.from_dict(doc)
 
     @classmethod
@@ -96,6 +99,9 @@ class Choice:
         p = Path(path)
         if not p.is_file():
             raise DataError(message(f"Choice file '{p}'", "an existing file", "nothing at that path"))
+        if p.stat().st_size > MAX_CHARS * 4:
+            raise DataError(message(f"Choice file '{p.name}'", f"at most {MAX_CHARS // 2**20} MB",
+                                    f"{p.stat().st_size:,} bytes"))
         try:
             text = p.read_bytes().decode("utf-8")
         except UnicodeDecodeError:

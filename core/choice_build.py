@@ -29,6 +29,7 @@ from scipy import stats
 
 from .checks import advice, check_recommendations
 from .choice import FORMAT, VERSION, Choice
+from .choice_check import content_digest
 from .curve import centred_form, power_form_digits
 from .errors import ParameterError, message
 
@@ -209,7 +210,9 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
                        "sealed_test": surface_info["sealed_test"]},
         "notes": notes,
     }
-    return Choice.from_dict(json.loads(json.dumps(doc, allow_nan=False)))
+    doc = json.loads(json.dumps(doc, allow_nan=False))
+    doc["digest"] = {"algorithm": "sha256", "value": content_digest(doc)}
+    return Choice.from_dict(doc)
 
 
 def score(choice: Choice, x, y) -> dict:

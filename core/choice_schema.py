@@ -124,7 +124,8 @@ def schema() -> dict:
         **closed({
             "format": {"const": FORMAT}, "version": {"const": VERSION}, "created": {"type": "string"},
             "software": closed({"name": {"const": "curvewright"}, "version": {"type": "string"}}),
-            "data": data, "model": model, "validation": validation, "notes": {"type": "string"}}),
+            "data": data, "model": model, "validation": validation, "notes": {"type": "string"},
+            "digest": closed({"algorithm": {"const": "sha256"}, "value": SHA256})}),
     }
 
 

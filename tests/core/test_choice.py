@@ -265,3 +265,120 @@ def test_choice_carries_the_recommendation_checks():
     assert c.doc["validation"]["advice"] == advice(want)
     for rule in ("lowest", "simplest"):
         assert ch[rule] == json.loads(json.dumps(want[rule].to_dict()))
+
+
+def redigest(doc):
+    from core.choice_check import content_digest
+
+    doc["digest"]["value"] = content_digest(doc)
+    return doc
+
+
+@pytest.mark.parametrize("edit, field", [
+    (lambda d: d["model"]["legendre_coefficients"].__setitem__(1, d["model"]["legendre_coefficients"][1] + 100),
+     "model/legendre_coefficients' and 'model/power_coefficients"),
+    (lambda d: d["model"]["domain"].__setitem__("center", d["model"]["domain"]["center"] + 1),
+     "model/legendre_coefficients' and 'model/power_coefficients"),
+    (lambda d: d["model"]["uncertainty"]["legendre_covariance"][0].__setitem__(0, 2.0 * d["model"]["uncertainty"]
+                                                                               ["legendre_covariance"][0][0]),
+     "digest"),
+    (lambda d: d["validation"].__setitem__("cv_mse", d["validation"]["cv_mse"] * 0.5) or
+     d["validation"].__setitem__("cv_rmse", d["validation"]["cv_mse"] ** 0.5), "digest"),
+    (lambda d: redigest(d) if d["model"]["power_coefficients"][1].__setitem__("value", 7.0) is None else d,
+     "model/legendre_coefficients' and 'model/power_coefficients"),
+    (lambda d: redigest(d) if d["model"]["power_form"]["centred"]["coefficients"].__setitem__(0, 9.0) is None else d,
+     "model/legendre_coefficients' and 'model/power_form/centred"),
+    (lambda d: redigest(d) if d["model"]["uncertainty"].__setitem__("legendre_covariance", [[1.0]]) is None else d,
+     "model/uncertainty/legendre_covariance"),
+    (lambda d: redigest(d) if d["model"]["uncertainty"].__setitem__(
+        "legendre_covariance", (-np.eye(3)).tolist()) is None else d, "model/uncertainty/legendre_covariance"),
+])
+def test_any_edit_to_a_number_is_refused_naming_the_field(edit, field):
+    """The whole file is tamper-evident: an edited number breaks the digest; an edit that also rewrites the
+    digest is caught by the consistency checks (power form against the stable form, covariance shape and
+    positive semi-definiteness), each refusal naming the field."""
+    c, *_ = choice_for()
+    doc = c.to_dict()
+    edit(doc)
+    with pytest.raises(DataError, match=f"Choice file field '{field}'"):
+        Choice.from_dict(doc)
+    assert Choice.from_dict(c.to_dict()).doc == c.doc          # the untouched file still loads
+
+
+def test_notes_may_be_edited_without_breaking_the_digest():
+    """The digest covers every field that affects a number; the free-text notes are outside it."""
+    c, *_ = choice_for()
+    doc = c.to_dict()
+    doc["notes"] = "reviewed on site"
+    assert Choice.from_dict(doc).doc["notes"] == "reviewed on site"
+
+
+@pytest.mark.parametrize("text, got", [
+    ("[" * 100_000 + "]" * 100_000, "nesting too deep"),
+    ('{"format": "curvewright-choice", "version": ' + "9" * 5001 + "}", "digits"),
+])
+def test_hostile_json_is_refused_with_a_message(text, got):
+    """A choice file nested 100,000 deep or holding a 5,001-digit integer gives a DataError, not a crash."""
+    with pytest.raises(DataError, match=got):
+        Choice.from_json(text)
+
+
+def test_apply_writes_nothing_from_a_refused_file(tmp_path, capsys):
+    """apply and check refuse an edited choice file and write no output."""
+    c, *_ = choice_for()
+    doc = c.to_dict()
+    doc["model"]["legendre_coefficients"][0] += 1.0
+    bad = tmp_path / "edited.json"
+    bad.write_text(json.dumps(doc))
+    rows = tmp_path / "rows.csv"
+    rows.write_text("x,y\n1,2\n2,3\n")
+    out = tmp_path / "out.csv"
+    assert main(["apply", str(bad), str(rows), "--x", "x", "--out", str(out)]) == 2
+    assert main(["check", str(bad), str(rows), "--x", "x", "--y", "y", "--json", str(tmp_path / "c.json")]) == 2
+    assert "Choice file field 'model/legendre_coefficients'" in capsys.readouterr().err
+    assert not out.exists() and not (tmp_path / "c.json").exists()
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.data())
+def test_fuzzed_choice_files_only_raise_project_errors(data):
+    """Hypothesis mutates a valid choice document (replacing a field anywhere with random JSON values):
+    loading gives a Choice or a DataError, never another exception."""
+    c, *_ = choice_for_cached()
+    doc = c.to_dict()
+    paths = list(_paths(doc))
+    path = data.draw(st.sampled_from(paths))
+    value = data.draw(st.recursive(st.none() | st.booleans() | st.integers() | st.floats(allow_nan=False)
+                                   | st.text(max_size=5), lambda kids: st.lists(kids, max_size=3)
+                                   | st.dictionaries(st.text(max_size=3), kids, max_size=3), max_leaves=6))
+    node = doc
+    for key in path[:-1]:
+        node = node[key]
+    node[path[-1]] = value
+    try:
+        Choice.from_json(json.dumps(doc))
+    except DataError:
+        pass
+
+
+_CACHE = {}
+
+
+def choice_for_cached():
+    if "c" not in _CACHE:
+        _CACHE["c"] = choice_for()
+    return _CACHE["c"]
+
+
+def _paths(node, prefix=()):
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield prefix + (k,)
+            yield from _paths(v, prefix + (k,))
+    elif isinstance(node, list):
+        for i, v in enumerate(node[:3]):
+            yield prefix + (i,)
+            yield from _paths(v, prefix + (i,))
