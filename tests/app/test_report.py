@@ -43,12 +43,20 @@ def test_report_numbers_equal_the_choice(made):
 
 
 def test_tampered_choice_is_refused_with_the_field(made, tmp_path, capsys):
-    """A choice whose CV error was edited, or whose degree is not a number, is refused naming the field; nothing is written."""
+    """A choice whose CV error was edited (the digest breaks; with the digest rewritten too, the report's own
+    recomputation from the data disagrees), or whose degree is not a number, is refused naming the field;
+    nothing is written."""
+    from core.choice_check import content_digest
+
     _, choice, _ = made
     doc = json.loads(choice.read_text())
     doc["validation"]["cv_mse"] *= 0.5
     doc["validation"]["cv_rmse"] = doc["validation"]["cv_mse"] ** 0.5
     bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(doc))
+    assert main(["report", str(bad), str(DATA), "--out", str(tmp_path / "r.html")]) == 2
+    assert "Choice file field 'digest'" in capsys.readouterr().err
+    doc["digest"]["value"] = content_digest(doc)
     bad.write_text(json.dumps(doc))
     assert main(["report", str(bad), str(DATA), "--out", str(tmp_path / "r.html")]) == 2
     assert "Choice file field 'validation/cv_mse'" in capsys.readouterr().err
