@@ -33,7 +33,7 @@ from .choice_check import content_digest
 from .curve import centred_form, power_form_digits
 from .errors import ParameterError, message
 
-__all__ = ["make_choice", "build_choice", "rule_of", "score", "bootstrap_refits", "sealed_record",
+__all__ = ["make_choice", "build_choice", "rule_of", "score", "bootstrap_refits", "sealed_record", "power_form_summary",
            "POWER_DIGITS_WARN"]
 
 POWER_DIGITS_WARN = 10.0      # below this, the raw power form is flagged and the centred form offered
@@ -159,7 +159,8 @@ def _finite_or_none(v):
     return float(v) if v is not None and np.isfinite(v) else None
 
 
-def _power_form(fit) -> dict:
+def power_form_summary(fit) -> dict:
+    """Digits the raw power form keeps over the fit's x range, and the centred form with its digits."""
     digits = power_form_digits(fit.curve, *fit.x_range)
     c, s, b = centred_form(fit.curve)
     return {"digits": round(digits["raw"], 2),
@@ -196,7 +197,7 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
                   "domain": fit.domain.to_dict(),
                   "legendre_coefficients": [float(v) for v in fit.legendre],
                   "power_coefficients": fit.power_rows(),
-                  "power_form": _power_form(fit),
+                  "power_form": power_form_summary(fit),
                   "uncertainty": _uncertainty(fit, bootstrap)},
         "validation": {"scheme": surface_info["scheme"], "k": surface_info["k"],
                        "repeats": surface_info["repeats"], "seed": surface_info["seed"],

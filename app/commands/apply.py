@@ -5,7 +5,10 @@ from __future__ import annotations
 
 import sys
 
+import numpy as np
+
 from core import defaults
+from core.errors import ParameterError, message
 from core.cells import is_number
 from core.files import write_atomic
 
@@ -27,6 +30,12 @@ def add_parser(subparsers):
                    help="band written beside each prediction: where one new reading lies (default) or where "
                         "the curve lies")
     p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the band covers (default 0.95)")
+    p.add_argument("--reading-uncertainty", metavar="VALUE|COL",
+                   help="standard uncertainty of each new reading, in y units (a number or a column); for curves "
+                        "fitted with stated uncertainties (default: interpolated from the calibration rows' u)")
+    p.add_argument("--reading-weight", metavar="VALUE|COL",
+                   help="relative weight of each new reading (a number or a column); for curves fitted with "
+                        "relative weights (default: the calibration rows' median weight)")
     add_blank_rows(p)
     add_reader_args(p)
     add_force(p)
@@ -39,17 +48,51 @@ def run(args, out) -> int:
     c = Choice.load(args.choice)
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
-    t, frame = load_rows(args, frame=True)
+    reading = _reading_options(args, c)
+    t, frame = load_rows(args, frame=True, **reading["columns"])
     frame = as_text_safe(frame)
-    outside = _add_predictions(c, t.x.values, frame, args.band, args.coverage)
+    ru = reading["u"] if reading["u"] is not None else (None if "uncertainty" not in reading["columns"]
+                                                        else 1.0 / np.sqrt(t.weights))
+    rw = reading["w"] if reading["w"] is not None else (None if "weights" not in reading["columns"] else t.weights)
+    outside = _add_predictions(c, t.x.values, frame, args.band, args.coverage, ru, rw)
     _write_table(args, frame, out)
     if outside.any():
         lo_x, hi_x = c.x_range
         print(f"warning: {int(outside.sum())} row(s) lie outside the fitted x range [{lo_x:g}, {hi_x:g}]: "
               "those predictions are extrapolations.", file=sys.stderr)
     if not c.has_band:
-        print("note: no band: the choice has lambda > 0 (classical bands need lambda = 0).", file=sys.stderr)
+        print("note: no band: this curve was fitted from statistics alone with the lasso or elastic net, "
+              "which leaves no covariance (fit it from the rows for a bootstrap band).", file=sys.stderr)
+    elif args.band == "reading":
+        print(f"note: {args.band} band ({c.band_label()}) for a {c.reading.describe(ru, rw)}.", file=sys.stderr)
     return 0
+
+
+def _reading_options(args, c) -> dict:
+    """--reading-uncertainty / --reading-weight as a number or a column of the data, checked against the
+    curve's weights kind."""
+    kind = c.reading.kind if c.reading is not None else "none"
+    out = {"u": None, "w": None, "columns": {}}
+    for opt, key, role, fits in (("reading_uncertainty", "u", "uncertainty", "uncertainty"),
+                                 ("reading_weight", "w", "weights", "relative")):
+        spec = getattr(args, opt)
+        if spec is None:
+            continue
+        flag = "--" + opt.replace("_", "-")
+        if kind != fits:
+            raise ParameterError(message(f"Option {flag}", f"a curve fitted with {fits} weights",
+                                         f"one fitted with {'no' if kind == 'none' else kind} weights",
+                                         "Leave the option out: the band uses the curve's own residual scatter"
+                                         if kind in ("none", "relative") else "Use --reading-uncertainty"))
+        try:
+            value = float(spec)
+        except ValueError:
+            out["columns"][role] = spec
+            continue
+        if not (np.isfinite(value) and value > 0):
+            raise ParameterError(message(f"Option {flag}", "a positive number or a column name", repr(spec)))
+        out[key] = value
+    return out
 
 
 def guard_cell(value):
@@ -72,12 +115,12 @@ def as_text_safe(frame):
     return frame
 
 
-def _add_predictions(c, x, frame, band, coverage):
+def _add_predictions(c, x, frame, band, coverage, reading_u=None, reading_weight=None):
     """Prediction, band limits (when the choice has them) and the outside-range flag as new
     columns of ``frame``; returns the flag."""
     frame["prediction"] = c.predict(x)
     if c.has_band:
-        _, lo, hi = c.predict(x, band=band, coverage=coverage)
+        _, lo, hi = c.predict(x, band=band, coverage=coverage, reading_u=reading_u, reading_weight=reading_weight)
         pct = f"{100 * coverage:g}"
         frame[f"{band}_low_{pct}"] = lo
         frame[f"{band}_high_{pct}"] = hi

@@ -207,13 +207,13 @@ def read_data(args, extra=None):
     return table
 
 
-def load_rows(args, y=None, *, frame=False):
-    """Validated x (and y) of the data file (notes to stderr), plus, with ``frame``, every column of
-    the kept rows (for apply's output), matched by spreadsheet row."""
+def load_rows(args, y=None, *, frame=False, weights=None, uncertainty=None):
+    """Validated x (and y, and a weight or uncertainty column) of the data file (notes to stderr), plus,
+    with ``frame``, every column of the kept rows (for apply's output), matched by spreadsheet row."""
     from core.table import read_frame
 
-    t = read_table(args.data, x=args.x, y=y, blank_rows=args.blank_rows, require_spread=False,
-                   **reader_options(args))
+    t = read_table(args.data, x=args.x, y=y, weights=weights, uncertainty=uncertainty, blank_rows=args.blank_rows,
+                   require_spread=False, **reader_options(args))
     for note in t.notices:
         print(f"note: {note}", file=sys.stderr)
     if t.rows_dropped:

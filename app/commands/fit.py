@@ -7,6 +7,7 @@ import numpy as np
 
 import core
 from core import defaults
+from core.errors import ParameterError, message
 from core.table import exclude_rows, read_table
 
 from .common import (add_data_args, add_degree_lambda, add_force, add_json, add_penalty_args, fmt, read_data,
@@ -23,6 +24,9 @@ def add_parser(subparsers):
                         "reading lies (lambda = 0: t-based; else bootstrap)")
     p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the band covers (default 0.95)")
     p.add_argument("--influence", action="store_true", help="list influential rows (lambda = 0: Cook's D > 4/n)")
+    p.add_argument("--scale-by-birge", action="store_true",
+                   help="with --uncertainty: scale the covariance by the reduced chi-square (the Birge ratio "
+                        "squared) when the scatter disagrees with the stated uncertainties")
     p.add_argument("--bias-variance", action="store_true",
                    help="split the expected error into bias^2, variance and noise, simulated from this fit")
     p.add_argument("--replicates", help="column naming repeated data sets (runs): --bias-variance then "
@@ -35,8 +39,17 @@ def add_parser(subparsers):
 def run(args, out) -> int:
     json_out, out = out, text_out(args, out)
     t = read_data(args)
+    if args.scale_by_birge and t.weight_kind != "uncertainty":
+        raise ParameterError(message("Option --scale-by-birge", "stated uncertainties (--uncertainty COL)",
+                                     "relative weights" if t.weights is not None else "no weights",
+                                     "Leave the option out: relative weights are scaled by the residual scatter "
+                                     "anyway"))
+    dom = None
+    if args.penalty == "curvature" and t.x.values.size:
+        dom = core.Domain.from_range(t.x.values.min(), t.x.values.max())
     r = core.fit(t.x.values, t.y.values, args.degree, args.lam, weights=t.weights,
-                 intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
+                 intercept=not args.through_origin, penalty=args.penalty, mix=args.mix, domain=dom,
+                 weight_kind=t.weight_kind, scale_by_birge=args.scale_by_birge)
     _print_coefficients(r, t, out)
     if args.band:
         _print_band(args, r, t, out)
@@ -62,8 +75,18 @@ def _print_coefficients(r, t, out):
           f"{'' if r.intercept else ' (uncentred)'}   residual df {fmt(r.residual_df)}"
           f"   effective df {fmt(r.effective_df)}", file=out)
     if t.weight_kind == "uncertainty":
-        print(f"reduced chi-square {fmt(r.reduced_chi_square)} (near 1 when curve and stated uncertainties "
-              "agree)", file=out)
+        p = r.chi_square_p
+        verdict = ("the scatter is larger than the stated uncertainties say" if p is not None and p < 0.01 else
+                   "the scatter is smaller than the stated uncertainties say"
+                   if p is not None and p > 0.99 else "consistent with the stated uncertainties")
+        print(f"reduced chi-square {fmt(r.reduced_chi_square)}, P(chi-square >= observed) = {fmt(p)}: {verdict}"
+              + (" (covariance scaled by the Birge ratio squared)" if r.reading.birge_scaled else
+                 " (covariance as the stated uncertainties give it)"), file=out)
+    from core.choice_build import power_form_summary
+
+    from .sweep import warn_power_form
+
+    warn_power_form(power_form_summary(r))
 
 
 def _print_band(args, r, t, out):
@@ -71,12 +94,16 @@ def _print_band(args, r, t, out):
     xs = np.linspace(r.x_range[0], r.x_range[1], 7)
     if r.legendre_cov is not None:
         yhat, lo, hi = r.predict(xs, band=args.band, coverage=args.coverage)
-        how = "t-based"
+        how = ("normal quantile, stated uncertainties taken as given" if r.reading.df is None
+               else f"Student's t on {r.reading.df:g} df")
+        if args.band == "reading":
+            how += "; " + r.reading.describe()
     else:
         from core.uncertainty import bootstrap_band
 
         yhat, lo, hi = bootstrap_band(t.x.values, t.y.values, args.degree, args.lam, xs, band=args.band,
                                       coverage=args.coverage, weights=t.weights, B=defaults.BOOTSTRAP_B,
+                                      weight_kind=t.weight_kind,
                                       intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
         how = f"bootstrap, {defaults.BOOTSTRAP_B} resamples"
     what = "the fitted curve" if args.band == "curve" else "one new reading"
@@ -131,7 +158,14 @@ def _print_bias_variance(args, r, t, out):
 
 def _write_fit_json(args, r, t, out):
     """The fit and the data it came from (file, fingerprint, columns, excluded rows) as JSON."""
+    from pathlib import Path
+
+    from core.choice_build import power_form_summary
+
     doc = r.to_dict()
-    doc["data"] = {"file": t.path, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name,
+    doc["power_form"] = power_form_summary(r)
+    doc["weight_kind"] = r.weight_kind
+    doc["chi_square_p"] = r.chi_square_p
+    doc["data"] = {"file": Path(t.path).name, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name,
                    "excluded_rows": list(t.excluded_rows)}
     write_json(args.json, doc, force=args.force, out=out)

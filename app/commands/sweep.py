@@ -17,6 +17,7 @@ import numpy as np
 import core
 from core import defaults
 from core.errors import ParameterError, message
+from core.select import edge_notes
 from core.table import unit_of
 
 from .common import (Progress, add_data_args, add_folds, add_force, add_json, add_penalty_args, add_repeats,
@@ -57,6 +58,9 @@ def add_parser(subparsers):
     p.add_argument("--pick-degree", type=int, help="save this degree instead of the recommendation")
     p.add_argument("--pick-lambda", type=float, help="save this lambda instead of the recommendation")
     p.add_argument("--notes", default="", help="free text stored in the choice file")
+    p.add_argument("--refit-all", action="store_true",
+                   help="fit the saved curve on every kept row (cross-validation and sealed), recorded as such; "
+                        "by default it is fitted on the rows it was scored on")
     add_force(p)
     return p
 
@@ -70,6 +74,7 @@ def run(args, out) -> int:
     s, t = _sweep(args, degrees, lams)
     json_out, out = out, text_out(args, out)
     _print_recommendations(s, t, out)
+    _print_checks(s, t, out)
     _print_by_degree(s, out)
     if args.json:
         write_json(args.json, s.to_dict(), force=args.force, out=json_out)
@@ -207,10 +212,23 @@ def _print_recommendations(s, t, out):
         print(f"recommended ({name}): degree {rec.degree}, lambda {rec.lam:.4g} "
               f"(grid {rec.grid_lambda:.3g}); {_error_text(rec)}; effective df {rec.effective_df:.3g}",
               file=out)
-        if rec.degree_at_edge:
-            print(f"  note: degree {rec.degree} is the top of the searched range; widen --degrees.", file=out)
-        if rec.lambda_at_edge:
-            print("  note: lambda is at the edge of the grid; widen --lambdas.", file=out)
+        for note in edge_notes(rec, s):
+            print(f"  note: {note} ({'--degrees' if note.startswith('Degree') else '--lambdas'})", file=out)
+
+
+def _print_checks(s, t, out):
+    """Each pick's residual checks and which rule to prefer (core.checks)."""
+    from core.checks import advice, check_recommendations
+
+    if hasattr(t, "rows_used"):
+        checks = check_recommendations(s)
+    else:
+        train = ~s.engine.plan.test_mask
+        checks = check_recommendations(s, t.x.values[train], t.y.values[train],
+                                       None if t.weights is None else t.weights[train])
+    for c in checks.values():
+        print(f"check: {c.summary()}", file=out)
+    print(f"check: {advice(checks)}", file=out)
 
 
 def _print_by_degree(s, out):
@@ -255,9 +273,27 @@ def _save_choice(args, t, s, out):
         c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
                         weights=t.weights, weight_column=t.weight_column, weight_kind=t.weight_kind,
                         notes=args.notes, version=core.__version__, groups_from=t.group_column,
-                        folds_given_by=t.fold_column)
+                        folds_given_by=t.fold_column, refit_all=args.refit_all, groups=t.groups)
     c.save(args.save, force=args.force)
-    print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}) -> {args.save}", file=out)
+    u = c.doc["model"]["uncertainty"]
+    print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}), fitted on "
+          f"{c.doc['data']['fit_rows']}, band: {c.band_label()} -> {args.save}", file=out)
+    if u is None:
+        print("note: the saved curve carries no band: the lasso and elastic net have no covariance from "
+              "statistics alone (read the file whole for a bootstrap band).", file=sys.stderr)
+    warn_power_form(c.doc["model"]["power_form"])
+
+
+def warn_power_form(pf: dict) -> None:
+    """Warn (stderr) when the raw-x power form keeps fewer than 10 significant digits over the data."""
+    from core.choice_build import POWER_DIGITS_WARN
+
+    if pf["digits"] < POWER_DIGITS_WARN:
+        c = pf["centred"]
+        print(f"warning: the raw-x power coefficients keep only {pf['digits']:.1f} significant digits of the curve "
+              f"over the data range (evaluated in double precision); use the stable form, or the centred form "
+              f"in ((x - {c['center']:.10g}) / {c['scale']:.10g})^k (keeps {c['digits']:.1f} digits; it is in "
+              "the choice file).", file=sys.stderr)
 
 
 def _save_stats(args, t, s, out):

@@ -155,3 +155,47 @@ def test_streamed_sweep_refuses_options_that_need_the_rows(extra, capsys):
     """--stream with leave-one-out, excluded rows or grouped folds is refused by name, never ignored."""
     code, _, err = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--stream", *extra], capsys)
     assert code == 2 and "Option --stream: expected k-fold folds over every row" in err and extra[0] in err
+
+
+def test_sweep_prints_the_checks_and_saves_a_band_for_a_penalized_pick(tmp_path, capsys):
+    """sweep shows each pick's residual checks (core.checks) and which to prefer; the saved simplest pick
+    (penalized) carries a bootstrap band that apply writes and labels."""
+    from core.choice import Choice
+
+    choice = tmp_path / "c.json"
+    code, text, _ = run(["sweep", FURNACE, "--x", 1, "--y", 2, "--degrees", "0-6", "--save", choice], capsys)
+    assert code == 0 and text.count("check: ") == 3 and "prefer" in text
+    c = Choice.load(choice)
+    assert c.doc["model"]["lambda"] > 0 and c.doc["model"]["uncertainty"]["method"] == "bootstrap"
+    rows = tmp_path / "new.csv"
+    rows.write_text("setting [degC]\n700\n800\n")
+    code, out, err = run(["apply", choice, rows, "--x", 1], capsys)
+    assert code == 0 and "reading_low_95" in out and "bootstrap" in err
+
+
+def test_apply_takes_a_readings_own_uncertainty(tmp_path, capsys):
+    """For a curve fitted with stated uncertainties, --reading-uncertainty (a number or a column) sets the new
+    reading's u: the band half-width is 1.96 sqrt(u0^2 + var(curve)) (core.bands); the option is refused for
+    a curve without stated uncertainties."""
+    import pandas as pd
+
+    from core.choice import Choice
+
+    data = ROOT / "sample_sets" / "thermistor_bench.csv"
+    choice = tmp_path / "t.json"
+    assert run(["sweep", data, "--x", 1, "--y", 2, "--uncertainty", 3, "--degrees", "0-6", "--save", choice,
+                "--pick-degree", 6, "--pick-lambda", 0], capsys)[0] == 0
+    rows = tmp_path / "r.csv"
+    rows.write_text("T [degC],u\n10,50\n40,5\n")
+    out = tmp_path / "p.csv"
+    assert run(["apply", choice, rows, "--x", 1, "--reading-uncertainty", "u", "--out", out], capsys)[0] == 0
+    p = pd.read_csv(out)
+    c = Choice.load(choice)
+    _, lo, _ = c.predict([10.0, 40.0], band="curve")
+    var_curve = ((c.predict([10.0, 40.0]) - lo) / 1.959963984540054) ** 2
+    np.testing.assert_allclose((p["reading_high_95"] - p["prediction"]) / 1.959963984540054,
+                               np.sqrt(np.array([50.0, 5.0]) ** 2 + var_curve), rtol=1e-9)
+    code, _, err = run(["apply", ROOT / "tests" / "core" / "data" / "choice_v1_lambda0.json",
+                        ROOT / "tests" / "core" / "data" / "furnace_new_v1.csv", "--x", 1,
+                        "--reading-uncertainty", "0.5"], capsys)
+    assert code == 2 and "Option --reading-uncertainty: expected a curve fitted with uncertainty weights" in err
