@@ -184,8 +184,10 @@ class BiasVariance:
                 "simulated_variance": self.simulated_variance, "n_sets": self.n_sets}
 
 
-def smoother(x, w, degree: int, lam: float, grid, *, intercept: bool = True, domain=None) -> np.ndarray:
-    """Ridge smoother S of shape (len(grid), n): predictions at grid = S y for any y."""
+def smoother(x, w, degree: int, lam: float, grid, *, intercept: bool = True, domain=None,
+             penalty: str = "ridge") -> np.ndarray:
+    """Smoother S of shape (len(grid), n) of a quadratic penalty (ridge or curvature): predictions at
+    grid = S y for any y. The curvature penalty integrates over ``domain``'s window (pass the sweep's)."""
     x = np.asarray(x, dtype=float)
     w = np.ones_like(x) if w is None else np.asarray(w, dtype=float)
     domain = domain or Domain.from_range(x.min(), x.max())
@@ -194,9 +196,9 @@ def smoother(x, w, degree: int, lam: float, grid, *, intercept: bool = True, dom
     G[:degree + 1, :degree + 1] = (P * w[:, None]).T @ P
     G[:degree + 1, -1] = G[-1, :degree + 1] = 0.0
     sv = FoldSolver(G, domain, 0.0, intercept)
-    f = sv.factor(degree)
+    f = sv.factor(degree, penalty)
     Pg = legendre_columns(domain.map(np.asarray(grid, dtype=float)), degree)
-    filt = ridge_filter(f.s ** 2, np.array([float(lam)]))[0] if degree else np.zeros(0)
+    filt = ridge_filter(f.s2, np.array([float(lam)]))[0] if degree else np.zeros(0)
     if intercept:
         mean = sv.mean[1:degree + 1]
         Pc, Pgc = P[:, 1:] - mean, Pg[:, 1:] - mean
@@ -208,18 +210,22 @@ def smoother(x, w, degree: int, lam: float, grid, *, intercept: bool = True, dom
 
 
 def bias_variance(x, truth, noise_sd: float, degree: int, lam: float, grid=None, *, weights=None,
-                  n_sets: int = 500, seed: int = 0, intercept: bool = True) -> BiasVariance:
+                  n_sets: int = 500, seed: int = 0, intercept: bool = True, penalty: str = "ridge",
+                  domain=None, weight_kind: str | None = None) -> BiasVariance:
     """The expected-error split for design x and true curve ``truth`` (a callable of x).
 
-    ``truth`` may be a fitted curve's ``predict`` to study the chosen fit itself.
+    ``truth`` may be a fitted curve's ``predict`` to study the chosen fit itself. Noise per row:
+    ``noise_sd / sqrt(w)`` (no or relative weights), or the stated u = 1/sqrt(w) itself when
+    ``weight_kind`` is "uncertainty" (``noise_sd`` then unused; the noise term is the mean u^2).
     """
     x, _, w = check_xyw(x, np.zeros_like(np.asarray(x, dtype=float)), weights)
     p = check(noise_sd=noise_sd, degree=degree, lam=lam, seed=seed)
     noise_sd, degree, lam = p.noise_sd, p.degree, p.lam
     grid = np.linspace(x.min(), x.max(), 101) if grid is None else np.asarray(grid, dtype=float)
-    S = smoother(x, w, degree, lam, grid, intercept=intercept)
+    S = smoother(x, w, degree, lam, grid, intercept=intercept, penalty=penalty, domain=domain)
     f_x, f_g = np.asarray(truth(x), dtype=float), np.asarray(truth(grid), dtype=float)
-    sd = noise_sd / np.sqrt(w)                 # weights as inverse variances (w = 1: plain noise)
+    known = weight_kind == "uncertainty" and weights is not None
+    sd = 1.0 / np.sqrt(w) if known else noise_sd / np.sqrt(w)     # weights as inverse variances
     bias = S @ f_x - f_g
     var = (S * S) @ (sd * sd)
     rng = np.random.default_rng([seed, 37])
@@ -227,7 +233,8 @@ def bias_variance(x, truth, noise_sd: float, degree: int, lam: float, grid=None,
     pred = S @ Y
     sim_bias2 = float(np.mean((pred.mean(axis=1) - f_g) ** 2))
     sim_var = float(np.mean(pred.var(axis=1, ddof=1)))
-    return BiasVariance(float(np.mean(bias ** 2)), float(np.mean(var)), float(noise_sd ** 2), sim_bias2,
+    noise = float(np.mean(sd ** 2)) if known else float(noise_sd ** 2)
+    return BiasVariance(float(np.mean(bias ** 2)), float(np.mean(var)), noise, sim_bias2,
                         sim_var, int(n_sets), {"grid": grid, "bias2": bias ** 2, "variance": var})
 
 

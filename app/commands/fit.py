@@ -146,11 +146,17 @@ def _print_replicate_variance(args, t, out):
 
 def _print_bias_variance(args, r, t, out):
     """The expected squared error split into bias^2, variance and noise, simulated from this fit."""
+    from core.errors import ParameterError, message
     from core.uncertainty import bias_variance
 
+    if r.penalty not in ("ridge", "curvature"):
+        raise ParameterError(message("Option --bias-variance", "a ridge or curvature fit (linear in y)",
+                                     f"the {r.penalty} penalty", "Use --penalty curvature or ridge for the split"))
     bv = bias_variance(t.x.values, r.predict, r.residual_sd, args.degree, args.lam, weights=t.weights,
-                       intercept=not args.through_origin)
-    print(f"expected squared error at new x (simulated from this fit, noise SD {r.residual_sd:.4g}): "
+                       intercept=not args.through_origin, penalty=r.penalty, domain=r.domain,
+                       weight_kind=t.weight_kind)
+    noise = ("the stated uncertainties" if t.weight_kind == "uncertainty" else f"noise SD {r.residual_sd:.4g}")
+    print(f"expected squared error at new x (simulated from this fit, {noise}): "
           f"bias^2 {bv.bias2:.4g} + variance {bv.variance:.4g} + noise {bv.noise:.4g} = {bv.expected_mse:.4g} "
           f"(simulation of {bv.n_sets} data sets: bias^2 {bv.simulated_bias2:.4g}, variance "
           f"{bv.simulated_variance:.4g})", file=out)

@@ -123,3 +123,21 @@ def test_bias_variance_from_user_supplied_sets_matches_the_analytic_split():
     assert est["bias2"] == pytest.approx(ref.bias2, rel=0.1)
     assert est["noise"] > 0.04                      # a too-stiff line leaves bias in its residuals
     assert bias_variance_from_sets(sets[:5], 2, 0.0, g)["bias2"] is None
+
+
+def test_curvature_smoother_reproduces_the_fit_and_known_noise_is_the_stated_u():
+    """The smoother of the curvature penalty maps y to core.fit's curvature predictions (same domain); with
+    stated uncertainties the bias/variance split's noise is the mean u^2 and its variance sum S^2 u^2."""
+    rng = np.random.default_rng(12)
+    x = rng.uniform(0, 4, 70)
+    u = 0.05 + 0.02 * x
+    y = f_true(x) + u * rng.normal(size=x.size)
+    dom = core.Domain.from_range(0.0, 4.0)
+    g = np.linspace(0, 4, 9)
+    S = smoother(x, 1 / u ** 2, 5, 1e-3, g, domain=dom, penalty="curvature")
+    ref = core.fit(x, y, 5, 1e-3, weights=1 / u ** 2, penalty="curvature", domain=dom)
+    np.testing.assert_allclose(S @ y, ref.predict(g), rtol=1e-9)
+    bv = bias_variance(x, f_true, 1.0, 5, 1e-3, g, weights=1 / u ** 2, penalty="curvature", domain=dom,
+                       weight_kind="uncertainty", n_sets=50)
+    assert bv.noise == pytest.approx(np.mean(u ** 2), rel=1e-12)
+    assert bv.variance == pytest.approx(np.mean((S * S) @ (u * u)), rel=1e-12)
