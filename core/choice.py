@@ -28,6 +28,9 @@ from .curve import Curve
 from .errors import DataError, message
 from .files import write_atomic
 from .bands import ReadingModel, band_limits
+from .errors import ParameterError
+from .transforms import Transform
+from .transforms import get as get_transform
 
 __all__ = ["Choice", "SCHEMA", "FORMAT", "VERSION"]
 
@@ -124,8 +127,26 @@ class Choice:
 
     @property
     def x_range(self) -> tuple[float, float]:
+        """The calibrated range of raw x."""
         lo, hi = self.doc["data"]["x_range"]
         return float(lo), float(hi)
+
+    @property
+    def transforms(self) -> tuple[Transform, Transform]:
+        """(x transform, y transform): the curve is v = f(u) with u = Tx(x), v = Ty(y) (``core.transforms``)."""
+        t = self.doc["model"]["transforms"]
+        return get_transform(t["x"]), get_transform(t["y"])
+
+    @property
+    def u_range(self) -> tuple[float, float]:
+        """The calibrated range in the curve's own variable u = Tx(x)."""
+        lo, hi = sorted(self.transforms[0].forward(np.asarray(self.x_range, dtype=float)).tolist())
+        return float(lo), float(hi)
+
+    @property
+    def covariance(self) -> np.ndarray | None:
+        u = self.doc["model"]["uncertainty"]
+        return None if u is None else np.array(u["legendre_covariance"], dtype=float)
 
     @property
     def has_band(self) -> bool:
@@ -155,17 +176,53 @@ class Choice:
 
         ``band`` ("curve": where the curve lies; "reading": where one new reading lies) uses the
         stored covariance (classical, or bootstrap for penalized curves) and what the file says
-        about a new reading (``core.bands``); returns (prediction, low, high).
+        about a new reading (``core.bands``); returns (prediction, low, high). With transforms the
+        curve and band are computed in the transformed variables and mapped back (under a log y
+        transform the prediction is the median of y, not its mean). NaN where x is outside the x
+        transform's domain.
         """
-        yhat = self.curve(x)
-        if band is None:
-            return yhat
+        tx, ty = self.transforms
         x = np.asarray(x, dtype=float)
-        u = self.doc["model"]["uncertainty"]
-        cov = None if u is None else np.array(u["legendre_covariance"], dtype=float)
+        u = tx.forward(x)
+        v = self.curve(u)
+        if band is None:
+            return ty.inverse(v)
         reading = self.reading or ReadingModel()
-        return (yhat, *band_limits(yhat, self.domain.map(x), cov, reading, band, coverage, x=x,
-                                   reading_u=reading_u, reading_weight=reading_weight))
+        lo, hi = band_limits(v, self.domain.map(u), self.covariance, reading, band, coverage, x=u,
+                             reading_u=reading_u, reading_weight=reading_weight)
+        return (ty.inverse(v), *ty.interval(lo, hi))
+
+    def invert(self, y, replicates=1, coverage: float = 0.95, *, reading_u=None, reading_weight=None):
+        """x read back from readings y (each the mean of ``replicates`` readings): the estimate, its interval
+        over the calibrated range and its standard uncertainty (``core.readback.ReadBack``, raw units)."""
+        import dataclasses
+
+        from .readback import read_back
+
+        if self.covariance is None:
+            raise ParameterError(message("Read-back", "a curve with a covariance (for the interval)",
+                                         "a curve saved without one (lasso or elastic net from statistics alone)",
+                                         "Export the choice from the rows, which adds a bootstrap covariance"))
+        tx, ty = self.transforms
+        y = np.atleast_1d(np.asarray(y, dtype=float)).ravel()
+        bad = ~ty.valid(y) & np.isfinite(y)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise ParameterError(message(f"Reading {i + 1}", f"{ty.needs} (the curve's y transform is {ty.name})",
+                                         f"{y[i]:g}"))
+        rb = read_back(self.curve, self.covariance, self.reading or ReadingModel(), ty.forward(y),
+                       x_range=self.u_range, replicates=replicates, coverage=coverage, reading_u=reading_u,
+                       reading_weight=reading_weight)
+        if tx.identity:
+            return dataclasses.replace(rb, reading=y)
+        lo, hi = tx.interval(rb.x_low, rb.x_high)
+        several = {}
+        for i, (sols, pieces) in rb.several.items():
+            mapped = sorted(tuple(sorted(tx.inverse(np.array(p)).tolist())) for p in pieces)
+            several[i] = (np.sort(tx.inverse(np.asarray(sols))), mapped)
+        return dataclasses.replace(rb, reading=y, x_estimate=tx.inverse(rb.x_estimate), x_low=lo, x_high=hi,
+                                   x_standard_uncertainty=rb.x_standard_uncertainty
+                                   * np.abs(tx.inverse_slope(rb.x_estimate)), several=several)
 
     def to_sklearn(self):
         """A fitted scikit-learn Pipeline predicting the same curve from raw x.

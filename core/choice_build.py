@@ -31,7 +31,9 @@ from .checks import advice, check_recommendations
 from .choice import FORMAT, VERSION, Choice
 from .choice_check import content_digest
 from .curve import centred_form, power_form_digits
+from .calibrate import lack_of_fit
 from .errors import ParameterError, message
+from .transforms import get as get_transform
 
 __all__ = ["make_choice", "build_choice", "rule_of", "score", "bootstrap_refits", "sealed_record", "power_form_summary",
            "POWER_DIGITS_WARN"]
@@ -88,13 +90,16 @@ def sealed_record(surface, degree: int, lam: float, cv_mse: float) -> dict:
 
 def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
                 weight_column=None, weight_kind=None, notes: str = "", version: str = "0.1.0",
-                groups_from=None, folds_given_by=None, refit_all: bool = False, groups=None) -> Choice:
+                groups_from=None, folds_given_by=None, refit_all: bool = False, groups=None,
+                transforms=("none", "none")) -> Choice:
     """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
 
     Refits on the sweep's training rows (the sealed rows stay out; ``refit_all`` refits on every kept
     row instead, recorded), takes the CV numbers from the sweep's statistics, and records the
     recommendations with their checks and the sealed-test audit record. With ``x=None`` the fit comes
     from the sweep's statistics (streamed files). ``weight_kind`` is "relative" or "uncertainty".
+    ``transforms`` names the x and y transforms the rows were given in (``core.transforms``): x and y
+    here are already transformed; the file records the raw x range and the transforms.
     """
     from .fit import fit as _fit
     from .fit import fit_from_engine
@@ -102,7 +107,7 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
 
     eng = surface.engine
     kind = (weight_kind or "relative") if weight_column else None
-    checks, boot = None, None
+    checks, boot, lof = None, None, None
     if x is None:   # streamed rows: the fit comes from the statistics
         if refit_all:
             raise ParameterError(message("Refit on all rows", "the rows in memory", "statistics only",
@@ -134,17 +139,19 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
             f = dataclasses.replace(f, legendre_cov=cov, covariance_method="bootstrap")
             boot = {"B": B, "refits": used, "seed": int(eng.plan.seed)}
         checks = check_recommendations(surface, x[train], y[train], None if w_all is None else w_all[train])
+        lof = lack_of_fit(xs, ys, f.curve, float(f.effective_df), weights=w)
     m, se, _ = eng.cv_summary(degree, [lam])
     info = {**surface.folds, "recommendation": {k: v.to_dict() for k, v in surface.recommended.items()},
             "sealed_test": sealed_record(surface, degree, lam, float(m[0])),
             "groups_from": groups_from, "folds_given_by": folds_given_by,
             "checks": {k: c.to_dict() for k, c in checks.items()}, "advice": advice(checks)}
-    data = {"excluded_rows": [], **data, "rows_used": rows, "x_range": xr,
+    tx = get_transform(transforms[0])
+    data = {"excluded_rows": [], **data, "rows_used": rows, "x_range": sorted(tx.inverse(np.asarray(xr)).tolist()),
             "fit_rows": "all kept rows" if refit_all else "cross-validation rows"}
     return build_choice(fit=f, surface_info=info, rule=rule,
                         cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},
                         data=data, notes=notes, weight_column=weight_column, weight_kind=kind, version=version,
-                        bootstrap=boot)
+                        bootstrap=boot, transforms=transforms, lof=lof)
 
 
 def rule_of(surface, degree: int, lam: float) -> str:
@@ -177,14 +184,31 @@ def _uncertainty(fit, bootstrap) -> dict | None:
             "bootstrap": bootstrap, "reading": fit.reading.to_dict()}
 
 
+def calibration_record(fit, transforms=("none", "none"), lof=None) -> dict:
+    """Lack of fit (when x repeats) and detection limits (for a calibration through a blank at x = 0,
+    untransformed, with a covariance) of a fit (``core.calibrate``, ``core.limits``)."""
+    from .limits import detection_limits
+
+    if fit.legendre_cov is None:
+        limits = None
+    elif tuple(transforms) != ("none", "none"):
+        limits = {"ich_q2": None, "hubaux_vos": None,
+                  "note": "not computed: detection limits are given for untransformed calibrations only"}
+    else:
+        limits = detection_limits(fit.curve, fit.legendre_cov, fit.reading, fit.x_range)
+    return {"lack_of_fit": lof, "limits": limits}
+
+
 def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, notes: str = "",
-                 weight_column=None, weight_kind=None, version: str = "0.1.0", bootstrap=None) -> Choice:
+                 weight_column=None, weight_kind=None, version: str = "0.1.0", bootstrap=None,
+                 transforms=("none", "none"), lof=None) -> Choice:
     """Assemble and validate a choice document from a FitOutcome and validation numbers.
 
     ``cv`` holds cv_mse, cv_mse_se, train_mse; ``surface_info`` the fold scheme
     (scheme, k, repeats, seed), the recommendations, their checks and the sealed-test record.
     """
     kind = weight_kind if weight_column else None
+    tx, ty = (get_transform(t) for t in transforms)
     doc = {
         "format": FORMAT, "version": VERSION,
         "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
@@ -192,6 +216,7 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
         "data": data,
         "model": {"degree": fit.degree, "lambda": fit.lam, "penalty": fit.penalty, "mix": fit.mix,
                   "intercept": fit.intercept,
+                  "transforms": {"x": tx.name, "y": ty.name},
                   "weighting": {"column": weight_column, "kind": kind},
                   "reduced_chi_square": _finite_or_none(fit.reduced_chi_square) if kind == "uncertainty" else None,
                   "domain": fit.domain.to_dict(),
@@ -209,6 +234,7 @@ def build_choice(*, fit, surface_info: dict, rule: str, cv: dict, data: dict, no
                        "rule": rule, "recommendation": surface_info["recommendation"],
                        "checks": surface_info.get("checks", {}), "advice": surface_info.get("advice", ""),
                        "sealed_test": surface_info["sealed_test"]},
+        "calibration": calibration_record(fit, transforms, lof),
         "notes": notes,
     }
     doc = json.loads(json.dumps(doc, allow_nan=False))
@@ -220,7 +246,7 @@ def score(choice: Choice, x, y) -> dict:
     """Scores of a saved curve on new labelled rows: RMSE, MAE, max |error|, bias (mean of y - yhat)."""
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
-    e = y - choice.predict(x)
+    e = y - choice.predict(x)   # raw units
     lo, hi = choice.x_range
     outside = (x < lo) | (x > hi)
     return {"n": int(x.size), "rmse": float(np.sqrt(np.mean(e ** 2))), "mae": float(np.mean(np.abs(e))),

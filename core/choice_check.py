@@ -22,6 +22,7 @@ import numpy as np
 from .basis import Domain
 from .curve import Curve
 from .errors import DataError, message
+from .transforms import get as get_transform
 
 __all__ = ["content_digest", "check_integrity"]
 
@@ -55,7 +56,7 @@ def check_integrity(doc: dict) -> None:
         _refuse("model/power_coefficients", f"one row for each power up to {d}", f"powers {powers}")
     dom = Domain(float(m["domain"]["center"]), float(m["domain"]["half_width"]))
     curve = Curve(dom, m["legendre_coefficients"], through_origin=not m["intercept"])
-    lo, hi = doc["data"]["x_range"]
+    lo, hi = sorted(get_transform(m["transforms"]["x"]).forward(np.asarray(doc["data"]["x_range"], dtype=float)))
     xs = np.linspace(lo, hi, 9)
     ref = curve(xs)
     scale = max(float(np.max(np.abs(ref))), 1e-300)

@@ -64,6 +64,8 @@ def upgrade_v1(doc: dict) -> dict:
                         "median_weight": 1.0, "u_table": None, "birge_scaled": False}}
         m["power_form"] = _power_form(m)
         m.setdefault("mix", 0.0)
+        m["transforms"] = {"x": "none", "y": "none"}
+        d["calibration"] = {"lack_of_fit": None, "limits": None}
         m.setdefault("reduced_chi_square", None)
         v["groups_from"] = v.pop("group_column", None)
         v["folds_given_by"] = v.pop("fold_column", None)

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import json
 
+from .transforms import NAMES as TRANSFORM_NAMES
+
 __all__ = ["schema", "VERSION", "FORMAT"]
 
 FORMAT = "curvewright-choice"
@@ -52,11 +54,28 @@ def _sealed() -> dict:
     return closed(props, required=["fraction", "n", "revealed", "revealed_at", "rows", "chosen_after_reveal"])
 
 
-def _check() -> dict:
-    lof = {"oneOf": [{"type": "null"}, closed({
+def _lack_of_fit() -> dict:
+    return {"oneOf": [{"type": "null"}, closed({
         "F": {"type": "number", "minimum": 0}, "df_lack": {"type": "number", "exclusiveMinimum": 0},
         "df_pure": {"type": "integer", "minimum": 1}, "p_value": {"type": "number", "minimum": 0, "maximum": 1},
         "pure_error_sd": {"type": "number", "minimum": 0}})]}
+
+
+def _limits() -> dict:
+    ich = {"oneOf": [{"type": "null"}, closed({
+        "method": {"type": "string"}, "sigma": {"type": "number", "minimum": 0}, "sigma_from": {"type": "string"},
+        "slope": NUMBER, "slope_at": NUMBER, "detection_limit": {"type": "number", "minimum": 0},
+        "quantitation_limit": {"type": "number", "minimum": 0}})]}
+    hv = {"oneOf": [{"type": "null"}, closed({
+        "method": {"type": "string"}, "alpha": {"type": "number", "exclusiveMinimum": 0, "exclusiveMaximum": 0.5},
+        "beta": {"type": "number", "exclusiveMinimum": 0, "exclusiveMaximum": 0.5},
+        "replicates": {"type": "integer", "minimum": 1}, "decision_level_y": NUMBER,
+        "decision_limit_x": NUMBER_OR_NULL, "detection_limit_x": NUMBER_OR_NULL})]}
+    return {"oneOf": [{"type": "null"}, closed({"ich_q2": ich, "hubaux_vos": hv, "note": TEXT_OR_NULL})]}
+
+
+def _check() -> dict:
+    lof = _lack_of_fit()
     return closed({"rule": {"enum": ["lowest", "simplest"]}, "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
                    "shift_sd": NUMBER_OR_NULL, "runs": {"type": ["integer", "null"]}, "runs_expected": NUMBER_OR_NULL,
                    "runs_p": NUMBER_OR_NULL, "lack_of_fit": lof, "passed": {"type": ["boolean", "null"]},
@@ -85,6 +104,7 @@ def schema() -> dict:
         "degree": DEGREE, "lambda": {"type": "number", "minimum": 0},
         "penalty": {"enum": ["ridge", "curvature", "lasso", "elastic"]}, "mix": {"type": "number", "minimum": 0, "maximum": 1},
         "intercept": {"type": "boolean"},
+        "transforms": closed({"x": {"enum": list(TRANSFORM_NAMES)}, "y": {"enum": list(TRANSFORM_NAMES)}}),
         "weighting": closed({"column": TEXT_OR_NULL, "kind": {"enum": ["relative", "uncertainty", None]}}),
         "reduced_chi_square": NUMBER_OR_NULL,
         "domain": closed({"center": NUMBER, "half_width": {"type": "number", "exclusiveMinimum": 0}}),
@@ -124,7 +144,9 @@ def schema() -> dict:
         **closed({
             "format": {"const": FORMAT}, "version": {"const": VERSION}, "created": {"type": "string"},
             "software": closed({"name": {"const": "curvewright"}, "version": {"type": "string"}}),
-            "data": data, "model": model, "validation": validation, "notes": {"type": "string"},
+            "data": data, "model": model, "validation": validation,
+            "calibration": closed({"lack_of_fit": _lack_of_fit(), "limits": _limits()}),
+            "notes": {"type": "string"},
             "digest": closed({"algorithm": {"const": "sha256"}, "value": SHA256})}),
     }
 

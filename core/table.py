@@ -62,6 +62,7 @@ class Table:
     weight_kind: str | None = None
     row_numbers: np.ndarray | None = field(default=None, repr=False)   # spreadsheet row of each kept row
     excluded_rows: tuple = ()
+    transforms: tuple = ("none", "none")    # x and y as given in the file were transformed by these
 
 
     @property
@@ -101,6 +102,29 @@ def exclude_rows(table: "Table", rows) -> "Table":
         y=None if table.y is None else dataclasses.replace(table.y, values=table.y.values[keep]),
         weights=cut(table.weights), groups=cut(table.groups), folds=cut(table.folds),
         row_numbers=table.row_numbers[keep], excluded_rows=tuple(rows))
+
+
+def transform_table(table: "Table", x_transform: str = "none", y_transform: str = "none") -> "Table":
+    """The table with x and y replaced by their transforms (``core.transforms``), or a refusal naming the
+    first row a transform cannot take. The fingerprint stays that of the file's own columns."""
+    import dataclasses
+
+    from .transforms import apply, get
+
+    tx, ty = get(x_transform), get(y_transform)
+    if tx.identity and ty.identity:
+        return table
+    if not ty.identity and table.weight_kind == "uncertainty":
+        raise DataError(message("Option --y-transform", "no stated uncertainties (they are in y's own units)",
+                                f"--uncertainty with the {ty.name} transform",
+                                "Give relative weights (--weights) for the transformed y, or leave y untransformed"))
+    name = Path(table.path).name
+    x = apply(tx, table.x.values, column=table.x.name, file=name, rows=table.row_numbers)
+    y = table.y
+    if y is not None:
+        y = dataclasses.replace(y, values=apply(ty, y.values, column=y.name, file=name, rows=table.row_numbers))
+    return dataclasses.replace(table, x=dataclasses.replace(table.x, values=x), y=y,
+                               transforms=(tx.name, ty.name))
 
 
 def columns_digest(digests: dict) -> str:

@@ -15,12 +15,12 @@ import numpy as np
 from core import defaults
 from core.errors import ParameterError, message
 from core.files import write_atomic
-from core.table import exclude_rows, read_table
+from core.table import exclude_rows, read_table, transform_table
 
 __all__ = [
     "EXIT_BAD_INPUT", "OUTPUT_OPTIONS", "STDOUT", "Parser", "Progress", "add_blank_rows", "add_data_args",
     "add_degree_lambda", "add_fold_args", "add_folds", "add_force", "add_json", "add_out", "add_penalty_args",
-    "add_reader_args", "add_repeats", "add_seed", "add_sheet", "check_cells", "describe_os_error", "fmt",
+    "add_reader_args", "add_repeats", "add_seed", "add_sheet", "add_transform_args", "check_cells", "describe_os_error", "fmt",
     "load_rows", "output_paths", "parse_degrees", "parse_grid", "read_data", "reader_options", "text_out",
     "write_json", "write_output",
 ]
@@ -126,6 +126,18 @@ def add_data_args(p, need_y=True):
     add_reader_args(p)
     p.add_argument("--through-origin", action="store_true", help="fit a curve through the origin (no constant term)")
     p.add_argument("--exclude", default="", help="spreadsheet rows to leave out, e.g. 7,19 (recorded)")
+    add_transform_args(p)
+
+
+def add_transform_args(p):
+    """--x-transform and --y-transform: fit the polynomial in transformed variables (recorded)."""
+    from core.transforms import NAMES
+
+    p.add_argument("--x-transform", choices=NAMES, default="none",
+                   help="fit in ln(x), 1/x or sqrt(x) instead of x (e.g. 1/T for a thermistor); recorded")
+    p.add_argument("--y-transform", choices=NAMES, default="none",
+                   help="fit ln(y), 1/y or sqrt(y) instead of y; predictions are mapped back (under log, the "
+                        "median of y); recorded")
 
 
 def add_degree_lambda(p):
@@ -204,6 +216,15 @@ def read_data(args, extra=None):
         print(f"note: skipped {len(table.rows_dropped)} row(s) with blank cells "
               f"(rows {', '.join(map(str, table.rows_dropped[:10]))}"
               f"{' ...' if len(table.rows_dropped) > 10 else ''}).", file=sys.stderr)
+    table = transform_table(table, getattr(args, "x_transform", "none"), getattr(args, "y_transform", "none"))
+    if table.transforms != ("none", "none"):
+        from core.transforms import get
+
+        tx, ty = (get(n) for n in table.transforms)
+        print(f"note: fitting {ty.label(table.y.name if table.y else 'y')} as a polynomial in "
+              f"{tx.label(table.x.name)}; errors and residuals are in those units"
+              + (" (back-transformed predictions are medians of y)" if ty.name == "log" else "") + ".",
+              file=sys.stderr)
     return table
 
 

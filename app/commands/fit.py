@@ -51,6 +51,10 @@ def run(args, out) -> int:
                  intercept=not args.through_origin, penalty=args.penalty, mix=args.mix, domain=dom,
                  weight_kind=t.weight_kind, scale_by_birge=args.scale_by_birge)
     _print_coefficients(r, t, out)
+    cal = _calibration(r, t)
+    from .sweep import print_calibration
+
+    print_calibration(cal, out)
     if args.band:
         _print_band(args, r, t, out)
     if args.influence:
@@ -60,17 +64,34 @@ def run(args, out) -> int:
     elif args.bias_variance:
         _print_bias_variance(args, r, t, out)
     if args.json:
-        _write_fit_json(args, r, t, json_out)
+        _write_fit_json(args, r, t, json_out, cal)
     return 0
+
+
+def _calibration(r, t) -> dict:
+    """Lack of fit (x repeats) and detection limits of the fit (``core.choice_build.calibration_record``)."""
+    from core.calibrate import lack_of_fit
+    from core.choice_build import calibration_record
+
+    lof = lack_of_fit(t.x.values, t.y.values, r.curve, float(r.effective_df), weights=t.weights)
+    return calibration_record(r, t.transforms, lof)
 
 
 def _print_coefficients(r, t, out):
     """The header line, the power-basis coefficient table and the goodness-of-fit line(s)."""
     print(f"degree {r.degree}, lambda {fmt(r.lam)}, {r.n} rows"
           + (", weighted" if r.weighted else "") + ("" if r.intercept else ", through origin"), file=out)
-    print(f"{'power':>6}  {'value':>20}  {'standard error':>18}", file=out)
+    from core.transforms import get
+
+    tx, ty = (get(n) for n in t.transforms)
+    var = tx.label("x") if tx.name != "reciprocal" else "(1/x)"
+    if t.transforms != ("none", "none"):
+        print(f"curve: {ty.label('y')} = sum of a_k {var}^k (x, y as in the file)", file=out)
+    w = max(6, len(var) + 3)
+    print(f"{'power':>{w}}  {'value':>20}  {'standard error':>18}", file=out)
     for row in r.power_rows():
-        print(f"{'x^' + str(row['power']):>6}  {row['value']:>20.12g}  {fmt(row['standard_error']):>18}", file=out)
+        print(f"{var + '^' + str(row['power']):>{w}}  {row['value']:>20.12g}  {fmt(row['standard_error']):>18}",
+              file=out)
     print(f"residual SD {fmt(r.residual_sd)}   R-squared {fmt(r.r_squared)}"
           f"{'' if r.intercept else ' (uncentred)'}   residual df {fmt(r.residual_df)}"
           f"   effective df {fmt(r.effective_df)}", file=out)
@@ -91,7 +112,10 @@ def _print_coefficients(r, t, out):
 
 def _print_band(args, r, t, out):
     """The requested band at 7 points across the x range: t-based at lambda = 0, else bootstrap."""
-    xs = np.linspace(r.x_range[0], r.x_range[1], 7)
+    from core.transforms import get
+
+    tx, ty = (get(n) for n in t.transforms)
+    xs = np.linspace(r.x_range[0], r.x_range[1], 7)      # in the fitted (transformed) x
     if r.legendre_cov is not None:
         yhat, lo, hi = r.predict(xs, band=args.band, coverage=args.coverage)
         how = ("normal quantile, stated uncertainties taken as given" if r.reading.df is None
@@ -107,8 +131,11 @@ def _print_band(args, r, t, out):
                                       intercept=not args.through_origin, penalty=args.penalty, mix=args.mix)
         how = f"bootstrap, {defaults.BOOTSTRAP_B} resamples"
     what = "the fitted curve" if args.band == "curve" else "one new reading"
+    if ty.name == "log":
+        how += "; back-transformed from ln(y): the line is the median of y"
     print(f"{100 * args.coverage:g}% band for {what} ({how}):", file=out)
-    for a, b_, c_, d_ in zip(xs, yhat, lo, hi):
+    lo, hi = ty.interval(lo, hi)
+    for a, b_, c_, d_ in zip(tx.inverse(xs), ty.inverse(yhat), lo, hi):
         print(f"  x {a:>12.6g}  fit {b_:>14.8g}  [{c_:.8g}, {d_:.8g}]", file=out)
 
 
@@ -162,7 +189,7 @@ def _print_bias_variance(args, r, t, out):
           f"{bv.simulated_variance:.4g})", file=out)
 
 
-def _write_fit_json(args, r, t, out):
+def _write_fit_json(args, r, t, out, cal):
     """The fit and the data it came from (file, fingerprint, columns, excluded rows) as JSON."""
     from pathlib import Path
 
@@ -172,6 +199,8 @@ def _write_fit_json(args, r, t, out):
     doc["power_form"] = power_form_summary(r)
     doc["weight_kind"] = r.weight_kind
     doc["chi_square_p"] = r.chi_square_p
+    doc["transforms"] = {"x": t.transforms[0], "y": t.transforms[1]}
+    doc.update(cal)
     doc["data"] = {"file": Path(t.path).name, **t.fingerprint(), "x_column": t.x.name, "y_column": t.y.name,
                    "excluded_rows": list(t.excluded_rows)}
     write_json(args.json, doc, force=args.force, out=out)

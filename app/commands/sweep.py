@@ -89,6 +89,10 @@ def _check_options(args):
     """Combinations refused before any work is done or any file is written."""
     if (args.pick_degree is None) != (args.pick_lambda is None):
         raise ParameterError(message("Options --pick-degree and --pick-lambda", "both or neither", "only one"))
+    if args.save_stats and (args.x_transform != "none" or args.y_transform != "none"):
+        raise ParameterError(message("Option --save-stats", "untransformed x and y",
+                                     "--x-transform or --y-transform",
+                                     "Save a choice file (--save) instead: it records the transforms"))
     if args.loo and args.save_stats:
         raise ParameterError(message("Option --save-stats", "k-fold cross-validation (the file holds per-fold sums)",
                                      "--loo", "Leave-one-out needs the rows themselves; drop --loo to save statistics"))
@@ -126,12 +130,14 @@ def _sweep(args, degrees, lams):
 def _refuse_row_options(args, how: str):
     """Options that need every row in memory are refused by name for the chunked readers."""
     used = [name for name, on in (("--group", args.group), ("--fold-ids", args.fold_ids),
-                                  ("--loo", args.loo), ("--exclude", args.exclude)) if on]
+                                  ("--loo", args.loo), ("--exclude", args.exclude),
+                                  ("--x-transform", args.x_transform != "none"),
+                                  ("--y-transform", args.y_transform != "none")) if on]
     if used:
         raise ParameterError(message(f"Option {how}", "k-fold folds over every row (the file is read in chunks)",
                                      " and ".join(used),
-                                     "Leave-one-out, grouped or explicit folds and excluded rows need the "
-                                     "file read whole: drop those options or make the file smaller"))
+                                     "Leave-one-out, grouped or explicit folds, excluded rows and transforms need "
+                                     "the file read whole: drop those options or make the file smaller"))
 
 
 def _sweep_streamed(args, degrees, lams):
@@ -273,7 +279,8 @@ def _save_choice(args, t, s, out):
         c = make_choice(t.x.values, t.y.values, s, d, lam, rule=rule_of(s, d, lam), data=data,
                         weights=t.weights, weight_column=t.weight_column, weight_kind=t.weight_kind,
                         notes=args.notes, version=core.__version__, groups_from=t.group_column,
-                        folds_given_by=t.fold_column, refit_all=args.refit_all, groups=t.groups)
+                        folds_given_by=t.fold_column, refit_all=args.refit_all, groups=t.groups,
+                        transforms=t.transforms)
     c.save(args.save, force=args.force)
     u = c.doc["model"]["uncertainty"]
     print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}), fitted on "
@@ -282,6 +289,31 @@ def _save_choice(args, t, s, out):
         print("note: the saved curve carries no band: the lasso and elastic net have no covariance from "
               "statistics alone (read the file whole for a bootstrap band).", file=sys.stderr)
     warn_power_form(c.doc["model"]["power_form"])
+    print_calibration(c.doc["calibration"], out)
+
+
+def print_calibration(cal: dict, out) -> None:
+    """Lack of fit against pure error and the detection limits, each with its method."""
+    lof = cal.get("lack_of_fit")
+    if lof is not None:
+        verdict = ("the curve misses a trend the replicates resolve" if lof["p_value"] < 0.01
+                   else "no lack of fit detected at the 1% level")
+        print(f"lack of fit: F = {lof['F']:.6g} on ({lof['df_lack']:.4g}, {lof['df_pure']}) df, p = {lof['p_value']:.3g}: "
+              f"{verdict}; pure-error SD {lof['pure_error_sd']:.6g} (the noise floor for the CV RMSE)", file=out)
+    lim = cal.get("limits")
+    if lim is None:
+        return
+    ich, hv = lim.get("ich_q2"), lim.get("hubaux_vos")
+    if ich is not None:
+        print(f"limits (ICH Q2(R2), sigma = {ich['sigma_from']} {ich['sigma']:.6g}, slope at 0 {ich['slope']:.6g}): "
+              f"detection {ich['detection_limit']:.6g}, quantitation {ich['quantitation_limit']:.6g}", file=out)
+    if hv is not None:
+        xd = "beyond the calibrated range" if hv["detection_limit_x"] is None else f"{hv['detection_limit_x']:.6g}"
+        xc = "-" if hv["decision_limit_x"] is None else f"{hv['decision_limit_x']:.6g}"
+        print(f"limits (Hubaux & Vos, alpha = beta = {hv['alpha']:g}): decision level y_C {hv['decision_level_y']:.6g} "
+              f"(x_C {xc}), detection limit x_D {xd}", file=out)
+    if lim.get("note") and hv is not None:
+        print(f"limits: {lim['note']}", file=out)
 
 
 def warn_power_form(pf: dict) -> None:
