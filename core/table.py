@@ -239,7 +239,7 @@ def read_frame(path, *, sheet=None, header: bool = True, skip_rows: int = 0, com
 
 def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, fold=None,
                blank_rows: str = "refuse", sheet=None, require_spread: bool = True, header: bool = True,
-               skip_rows: int = 0, comment: str | None = None) -> Table:
+               skip_rows: int = 0, comment: str | None = None, x_option: str = "x") -> Table:
     """Read one file and select its columns.
 
     Parameters
@@ -267,6 +267,8 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
         Lines (sheet rows) above the header to leave out; they still count in row numbers.
     comment : str, optional
         Lines starting with this character are left out (and still counted).
+    x_option : str
+        The option that named the ``x`` column, for messages (``invert`` reads its readings as --y).
 
     Raises
     ------
@@ -279,7 +281,8 @@ def read_table(path, *, x, y=None, weights=None, uncertainty=None, group=None, f
     src = open_source(path, sheet=sheet, header=header, skip_rows=skip_rows, comment=comment)
     fname = src.fname
     roles = {"x": x, "y": y, "weights": weights, "uncertainty": uncertainty}
-    chosen = {r: pick_column(src.columns, s, r, fname) for r, s in roles.items() if s is not None}
+    chosen = {r: pick_column(src.columns, s, x_option if r == "x" else r, fname) for r, s in roles.items()
+              if s is not None}
     src.check_types(list(chosen.values()))
     extra = {r: pick_column(src.columns, s, r, fname) for r, s in (("group", group), ("fold", fold)) if s is not None}
     sel = Selection(src, chosen)

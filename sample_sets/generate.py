@@ -21,8 +21,8 @@ def thermistor(rng) -> str:
     R = 10000.0 * np.exp(3450.0 * (1.0 / Tk - 1.0 / 298.15))
     u = 0.002 * R + 2.0                       # standard uncertainty grows with R
     R_obs = R + u * rng.normal(size=T.size)
-    lines = ["probe_T [degC],resistance [ohm],u_resistance [ohm]"]
-    lines += [f"{t:.2f},{r:.3f},{uu:.3f}" for t, r, uu in zip(T, R_obs, u)]
+    lines = ["probe_T [degC],resistance [ohm],u_resistance [ohm],probe_T [K]"]
+    lines += [f"{t:.2f},{r:.3f},{uu:.3f},{t + 273.15:.2f}" for t, r, uu in zip(T, R_obs, u)]
     return "\n".join(lines) + "\n"
 
 
@@ -56,11 +56,41 @@ def beam(rng) -> str:
     return "\n".join(rows) + "\n"
 
 
+def assay(rng) -> tuple[str, str]:
+    """Fictional assay calibration: signal against concentration of a standard, three replicates at each of
+    eight levels starting at a blank, a slight saturation, and scatter that rises with the signal (each
+    row's stated standard uncertainty u). Also a file of unknowns: three replicate readings per sample."""
+    levels = np.array([0.0, 1.0, 2.0, 5.0, 10.0, 20.0, 40.0, 80.0])
+
+    def signal(c):
+        return 0.050 + 0.0240 * c - 0.000060 * c ** 2
+
+    def u_of(s):
+        return 0.0030 + 0.012 * s
+
+    conc = np.repeat(levels, 3)
+    s = signal(conc)
+    u = u_of(s)
+    obs = s + u * rng.normal(size=conc.size)
+    cal = ["conc [ng/mL],signal [AU],u_signal [AU]"]
+    cal += [f"{c:.1f},{a:.5f},{b:.5f}" for c, a, b in zip(conc, obs, u)]
+    truth = {"S-01": 3.0, "S-02": 15.0, "S-03": 35.0, "S-04": 70.0, "S-05": 0.4}
+    unk = ["sample,signal [AU],u_signal [AU]"]
+    for name, c in truth.items():
+        s0 = signal(c)
+        for r in s0 + u_of(s0) * rng.normal(size=3):
+            unk.append(f"{name},{r:.5f},{u_of(s0):.5f}")
+    return "\n".join(cal) + "\n", "\n".join(unk) + "\n"
+
+
 def main() -> None:
     rng = np.random.default_rng(20261202)
     for name, make in (("thermistor_bench.csv", thermistor), ("furnace_yield.csv", furnace),
                        ("beam_deflection.csv", beam)):
         (HERE / name).write_text(make(rng), encoding="utf-8")
+    cal, unknowns = assay(rng)
+    (HERE / "assay_calibration.csv").write_text(cal, encoding="utf-8")
+    (HERE / "assay_unknowns.csv").write_text(unknowns, encoding="utf-8")
 
 
 if __name__ == "__main__":

@@ -48,7 +48,7 @@ def run(args, out) -> int:
     c = Choice.load(args.choice)
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
-    reading = _reading_options(args, c)
+    reading = reading_options(args, c)
     t, frame = load_rows(args, frame=True, **reading["columns"])
     frame = as_text_safe(frame)
     ru = reading["u"] if reading["u"] is not None else (None if "uncertainty" not in reading["columns"]
@@ -68,7 +68,7 @@ def run(args, out) -> int:
     return 0
 
 
-def _reading_options(args, c) -> dict:
+def reading_options(args, c) -> dict:
     """--reading-uncertainty / --reading-weight as a number or a column of the data, checked against the
     curve's weights kind."""
     kind = c.reading.kind if c.reading is not None else "none"

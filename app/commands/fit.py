@@ -54,7 +54,7 @@ def run(args, out) -> int:
     cal = _calibration(r, t)
     from .sweep import print_calibration
 
-    print_calibration(cal, out)
+    print_calibration(cal, out, t.weight_kind)
     if args.band:
         _print_band(args, r, t, out)
     if args.influence:

@@ -289,17 +289,22 @@ def _save_choice(args, t, s, out):
         print("note: the saved curve carries no band: the lasso and elastic net have no covariance from "
               "statistics alone (read the file whole for a bootstrap band).", file=sys.stderr)
     warn_power_form(c.doc["model"]["power_form"])
-    print_calibration(c.doc["calibration"], out)
+    print_calibration(c.doc["calibration"], out, c.doc["model"]["weighting"]["kind"])
 
 
-def print_calibration(cal: dict, out) -> None:
+def print_calibration(cal: dict, out, weight_kind=None) -> None:
     """Lack of fit against pure error and the detection limits, each with its method."""
     lof = cal.get("lack_of_fit")
     if lof is not None:
         verdict = ("the curve misses a trend the replicates resolve" if lof["p_value"] < 0.01
                    else "no lack of fit detected at the 1% level")
+        pe = lof["pure_error_sd"]
+        floor = {None: f"pure-error SD {pe:.6g} (the noise floor for the CV RMSE)",
+                 "none": f"pure-error SD {pe:.6g} (the noise floor for the CV RMSE)",
+                 "relative": f"pure-error SD {pe:.6g} per unit weight",
+                 "uncertainty": f"pure-error scatter {pe:.4g} times the stated uncertainties (near 1: as stated)"}
         print(f"lack of fit: F = {lof['F']:.6g} on ({lof['df_lack']:.4g}, {lof['df_pure']}) df, p = {lof['p_value']:.3g}: "
-              f"{verdict}; pure-error SD {lof['pure_error_sd']:.6g} (the noise floor for the CV RMSE)", file=out)
+              f"{verdict}; {floor.get(weight_kind, floor[None])}", file=out)
     lim = cal.get("limits")
     if lim is None:
         return
