@@ -192,6 +192,25 @@ class Choice:
                              reading_u=reading_u, reading_weight=reading_weight)
         return (ty.inverse(v), *ty.interval(lo, hi))
 
+    def prediction_sd(self, x, band: str = "reading", *, reading_u=None, reading_weight=None) -> np.ndarray:
+        """Standard uncertainty at raw x, in raw y units: of the curve (``band="curve"``, sqrt(g' Cov g)) or of
+        one new reading about it (``"reading"``, adding the reading's variance, ``core.bands``). Through a y
+        transform by first-order propagation (|dy/dv| at the curve)."""
+        from .basis import legendre_columns
+
+        if self.covariance is None:
+            raise ParameterError(message("Uncertainty of a prediction", "a curve with a covariance",
+                                         "a curve saved without one",
+                                         "Export the choice from the rows, which adds a bootstrap covariance"))
+        tx, ty = self.transforms
+        x = np.atleast_1d(np.asarray(x, dtype=float))
+        u = tx.forward(x)
+        P = legendre_columns(self.domain.map(u), self.legendre.size - 1)
+        var = np.einsum("ij,jk,ik->i", P, self.covariance, P)
+        if band == "reading":
+            var = var + (self.reading or ReadingModel()).reading_variance(u, reading_u, reading_weight)
+        return np.sqrt(np.maximum(var, 0.0)) * np.abs(ty.inverse_slope(self.curve(u)))
+
     def invert(self, y, replicates=1, coverage: float = 0.95, *, reading_u=None, reading_weight=None):
         """x read back from readings y (each the mean of ``replicates`` readings): the estimate, its interval
         over the calibrated range and its standard uncertainty (``core.readback.ReadBack``, raw units)."""
