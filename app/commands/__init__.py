@@ -14,4 +14,4 @@ __all__ = ["COMMANDS"]
 
 # Command name -> module. The order is the order of `curvewright --help`.
 COMMANDS = {name: import_module(f"{__name__}.{name}")
-            for name in ("fit", "sweep", "learn", "apply", "invert", "check", "report", "schema", "open")}
+            for name in ("fit", "sweep", "learn", "apply", "invert", "check", "code", "report", "schema", "open")}
