@@ -21,6 +21,7 @@ test: $(STAMP)
 
 bench: $(STAMP)
 	$(PY) bench/bench_sweep.py
+	$(PY) bench/bench_invert.py
 
 sample-sets: $(STAMP)
 	$(PY) sample_sets/generate.py
