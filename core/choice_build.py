@@ -91,7 +91,7 @@ def sealed_record(surface, degree: int, lam: float, cv_mse: float) -> dict:
 def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict, weights=None,
                 weight_column=None, weight_kind=None, notes: str = "", version: str = "0.1.0",
                 groups_from=None, folds_given_by=None, refit_all: bool = False, groups=None,
-                transforms=("none", "none")) -> Choice:
+                transforms=("none", "none"), x_raw=None) -> Choice:
     """The choice for (degree, lambda) of a sweep over rows x, y (the same rows the sweep saw).
 
     Refits on the sweep's training rows (the sealed rows stay out; ``refit_all`` refits on every kept
@@ -99,7 +99,8 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
     recommendations with their checks and the sealed-test audit record. With ``x=None`` the fit comes
     from the sweep's statistics (streamed files). ``weight_kind`` is "relative" or "uncertainty".
     ``transforms`` names the x and y transforms the rows were given in (``core.transforms``): x and y
-    here are already transformed; the file records the raw x range and the transforms.
+    here are already transformed; the file records the raw x range (from ``x_raw``, the untransformed x of the
+    same rows, when given; else mapped back) and the transforms.
     """
     from .fit import fit as _fit
     from .fit import fit_from_engine
@@ -131,6 +132,9 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
         f = _fit(xs, ys, degree, lam, weights=w, intercept=surface.intercept, penalty=eng.penalty, mix=eng.mix,
                  domain=dom, weight_kind=kind)
         rows, xr = int(xs.size), [float(xs.min()), float(xs.max())]
+        if x_raw is not None:
+            xr_raw = np.asarray(x_raw, dtype=float)[use]
+            xr_raw = [float(xr_raw.min()), float(xr_raw.max())]
         if f.legendre_cov is None:
             B = bootstrap_refits(xs.size)
             cov, used = bootstrap_covariance(xs, ys, degree, lam, domain=f.domain, B=B, seed=eng.plan.seed,
@@ -146,7 +150,9 @@ def make_choice(x, y, surface, degree: int, lam: float, *, rule: str, data: dict
             "groups_from": groups_from, "folds_given_by": folds_given_by,
             "checks": {k: c.to_dict() for k, c in checks.items()}, "advice": advice(checks)}
     tx = get_transform(transforms[0])
-    data = {"excluded_rows": [], **data, "rows_used": rows, "x_range": sorted(tx.inverse(np.asarray(xr)).tolist()),
+    if x is None or x_raw is None:
+        xr_raw = sorted(tx.inverse(np.asarray(xr)).tolist())
+    data = {"excluded_rows": [], **data, "rows_used": rows, "x_range": xr_raw,
             "fit_rows": "all kept rows" if refit_all else "cross-validation rows"}
     return build_choice(fit=f, surface_info=info, rule=rule,
                         cv={"cv_mse": float(m[0]), "cv_mse_se": float(se[0]), "train_mse": f.train_mse},

@@ -63,6 +63,7 @@ class Table:
     row_numbers: np.ndarray | None = field(default=None, repr=False)   # spreadsheet row of each kept row
     excluded_rows: tuple = ()
     transforms: tuple = ("none", "none")    # x and y as given in the file were transformed by these
+    raw_x: np.ndarray | None = field(default=None, repr=False)   # x as in the file, when transformed
 
 
     @property
@@ -124,7 +125,7 @@ def transform_table(table: "Table", x_transform: str = "none", y_transform: str 
     if y is not None:
         y = dataclasses.replace(y, values=apply(ty, y.values, column=y.name, file=name, rows=table.row_numbers))
     return dataclasses.replace(table, x=dataclasses.replace(table.x, values=x), y=y,
-                               transforms=(tx.name, ty.name))
+                               transforms=(tx.name, ty.name), raw_x=table.x.values)
 
 
 def columns_digest(digests: dict) -> str:

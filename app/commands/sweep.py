@@ -74,10 +74,12 @@ def run(args, out) -> int:
     s, t = _sweep(args, degrees, lams)
     json_out, out = out, text_out(args, out)
     _print_recommendations(s, t, out)
-    _print_checks(s, t, out)
+    checks = _print_checks(s, t, out)
     _print_by_degree(s, out)
     if args.json:
-        write_json(args.json, s.to_dict(), force=args.force, out=json_out)
+        doc = s.to_dict()
+        doc["checks"] = {k: c.to_dict() for k, c in checks.items()}      # incl. each pick's lack of fit
+        write_json(args.json, doc, force=args.force, out=json_out)
     if args.save:
         _save_choice(args, t, s, out)
     if args.save_stats:
@@ -235,6 +237,7 @@ def _print_checks(s, t, out):
     for c in checks.values():
         print(f"check: {c.summary()}", file=out)
     print(f"check: {advice(checks)}", file=out)
+    return checks
 
 
 def _print_by_degree(s, out):
@@ -280,7 +283,7 @@ def _save_choice(args, t, s, out):
                         weights=t.weights, weight_column=t.weight_column, weight_kind=t.weight_kind,
                         notes=args.notes, version=core.__version__, groups_from=t.group_column,
                         folds_given_by=t.fold_column, refit_all=args.refit_all, groups=t.groups,
-                        transforms=t.transforms)
+                        transforms=t.transforms, x_raw=t.raw_x)
     c.save(args.save, force=args.force)
     u = c.doc["model"]["uncertainty"]
     print(f"saved choice: degree {d}, lambda {lam:.4g} ({c.doc['validation']['rule']}), fitted on "
