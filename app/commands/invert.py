@@ -82,6 +82,11 @@ def run(args, out) -> int:
     rb = c.invert(y, replicates=reps, coverage=args.coverage, reading_u=ru, reading_weight=rw)
     rows = rb.rows()
     _add_columns(frame, rows)
+    detected = _decision(c, rb)
+    if detected is not None:
+        frame["above_decision_level"] = detected
+        for r, d in zip(rows, detected.tolist()):
+            r["above_decision_level"] = d
     text = text_out(args, out)
     if args.out and args.out != STDOUT:
         write_atomic(args.out, frame.to_csv(index=False), force=args.force)
@@ -127,6 +132,25 @@ def _add_columns(frame, rows):
     frame["solutions"] = ["; ".join(f"{v:.10g}" for v in r["solutions"]) if "solutions" in r else "" for r in rows]
 
 
+def _decision(c, rb):
+    """Whether each reading (the mean of its replicates) is beyond the Hubaux & Vos decision level y_C for
+    that many replicates (None when the curve has no limits: no blank in its range, or transforms)."""
+    from core.bands import ReadingModel
+    from core.limits import detection_limits
+
+    lim = (c.doc.get("calibration") or {}).get("limits") or {}
+    if not lim.get("hubaux_vos"):
+        return None
+    rising = lim["ich_q2"]["slope"] > 0          # the slope at the blank, as the limits used it
+    out = np.zeros(rb.reading.size, dtype=bool)
+    for m in np.unique(rb.replicates):
+        y_c = detection_limits(c.curve, c.covariance, c.reading or ReadingModel(), c.u_range,
+                               replicates=int(m))["hubaux_vos"]["decision_level_y"]
+        sel = rb.replicates == m
+        out[sel] = (rb.reading[sel] > y_c) if rising else (rb.reading[sel] < y_c)
+    return out
+
+
 def _summary(c, rb, rows, args):
     """Counts per interval kind with their meaning, the band's assumptions, and the log-y note (stderr)."""
     kinds = {k: int(np.sum(rb.interval == k)) for k in MEANINGS}
@@ -137,6 +161,12 @@ def _summary(c, rb, rows, args):
         if n and k != "bounded":
             print(f"{'warning' if k in ('empty', 'several') else 'note'}: {n} reading(s) '{k}': {MEANINGS[k]}.",
                   file=sys.stderr)
+    below = [r for r in rows if r.get("above_decision_level") is False]
+    if below:
+        hv = c.doc["calibration"]["limits"]["hubaux_vos"]
+        print(f"note: {len(below)} reading(s) at or below the decision level y_C (Hubaux & Vos, alpha = "
+              f"{hv['alpha']:g}; {hv['decision_level_y']:.6g} for one reading): not distinguishable from the blank.",
+              file=sys.stderr)
     if c.transforms[1].name == "log":
         print("note: the curve was fitted to ln(y); readings are read back through it unchanged.", file=sys.stderr)
 

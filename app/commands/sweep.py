@@ -313,8 +313,9 @@ def print_calibration(cal: dict, out, weight_kind=None) -> None:
         return
     ich, hv = lim.get("ich_q2"), lim.get("hubaux_vos")
     if ich is not None:
-        print(f"limits (ICH Q2(R2), sigma = {ich['sigma_from']} {ich['sigma']:.6g}, slope at 0 {ich['slope']:.6g}): "
-              f"detection {ich['detection_limit']:.6g}, quantitation {ich['quantitation_limit']:.6g}", file=out)
+        print(f"limits (ICH Q2(R2): 3.3 and 10 sigma / S with sigma {ich['sigma']:.6g}, the {ich['sigma_from']}, "
+              f"and S {ich['slope']:.6g}, the slope at 0): detection {ich['detection_limit']:.6g}, "
+              f"quantitation {ich['quantitation_limit']:.6g}", file=out)
     if hv is not None:
         xd = "beyond the calibrated range" if hv["detection_limit_x"] is None else f"{hv['detection_limit_x']:.6g}"
         xc = "-" if hv["decision_limit_x"] is None else f"{hv['decision_limit_x']:.6g}"

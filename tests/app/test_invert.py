@@ -95,3 +95,21 @@ def test_invert_guards_formula_like_group_labels(assay_choice, tmp_path):
     out = tmp_path / "e.csv"
     assert main(["invert", str(assay_choice), str(p), "--y", "signal", "--group", "sample", "--out", str(out)]) == 0
     assert pd.read_csv(out)["sample"].tolist() == ["'=HYPERLINK(\"x\")"]
+
+
+def test_invert_flags_readings_below_the_decision_level_for_their_replicates(assay_choice, tmp_path, capsys):
+    """Hubaux & Vos (1970): y_C is the one-sided upper prediction limit of the blank for the mean of m readings."""
+    from core.limits import detection_limits
+
+    c = Choice.load(assay_choice)
+    y_c1 = c.doc["calibration"]["limits"]["hubaux_vos"]["decision_level_y"]
+    y_c3 = detection_limits(c.curve, c.covariance, c.reading, c.u_range, replicates=3)["hubaux_vos"]["decision_level_y"]
+    assert y_c3 < y_c1
+    mid = 0.5 * (y_c1 + y_c3)
+    p = tmp_path / "blank.csv"
+    p.write_text(f"sample,signal\nA,{mid}\nA,{mid}\nA,{mid}\nB,{mid}\n")
+    out = tmp_path / "b.csv"
+    assert main(["invert", str(assay_choice), str(p), "--y", "signal", "--group", "sample", "--out", str(out)]) == 0
+    got = pd.read_csv(out)
+    assert got["above_decision_level"].tolist() == [True, False]        # mean of 3 clears y_C(3); one reading not
+    assert "1 reading(s) at or below the decision level" in capsys.readouterr().err
