@@ -59,7 +59,8 @@ def beam(rng) -> str:
 def assay(rng) -> tuple[str, str]:
     """Fictional assay calibration: signal against concentration of a standard, three replicates at each of
     eight levels starting at a blank, a slight saturation, and scatter that rises with the signal (each
-    row's stated standard uncertainty u). Also a file of unknowns: three replicate readings per sample."""
+    row's stated standard uncertainty u). Also a file of unknowns (three replicate readings per sample) and
+    one of control standards measured later (known concentration, two readings each)."""
     levels = np.array([0.0, 1.0, 2.0, 5.0, 10.0, 20.0, 40.0, 80.0])
 
     def signal(c):
@@ -80,7 +81,12 @@ def assay(rng) -> tuple[str, str]:
         s0 = signal(c)
         for r in s0 + u_of(s0) * rng.normal(size=3):
             unk.append(f"{name},{r:.5f},{u_of(s0):.5f}")
-    return "\n".join(cal) + "\n", "\n".join(unk) + "\n"
+    ctl = ["conc [ng/mL],signal [AU]"]
+    for c in (2.5, 7.5, 25.0, 60.0):          # control standards measured on another day
+        s0 = signal(c)
+        for r in s0 + u_of(s0) * rng.normal(size=2):
+            ctl.append(f"{c:.1f},{r:.5f}")
+    return "\n".join(cal) + "\n", "\n".join(unk) + "\n", "\n".join(ctl) + "\n"
 
 
 def main() -> None:
@@ -88,9 +94,10 @@ def main() -> None:
     for name, make in (("thermistor_bench.csv", thermistor), ("furnace_yield.csv", furnace),
                        ("beam_deflection.csv", beam)):
         (HERE / name).write_text(make(rng), encoding="utf-8")
-    cal, unknowns = assay(rng)
+    cal, unknowns, controls = assay(rng)
     (HERE / "assay_calibration.csv").write_text(cal, encoding="utf-8")
     (HERE / "assay_unknowns.csv").write_text(unknowns, encoding="utf-8")
+    (HERE / "assay_controls.csv").write_text(controls, encoding="utf-8")
 
 
 if __name__ == "__main__":

@@ -78,7 +78,10 @@ def _print_scores(c, sc, out):
     """Errors on the new rows next to the cross-validation error the curve was chosen with."""
     print(f"{sc['n']} rows: RMSE {sc['rmse']:.6g}  MAE {sc['mae']:.6g}  max |error| {sc['max_abs_error']:.6g}"
           f"  bias (mean of y - prediction) {sc['bias']:.6g}", file=out)
-    print(f"saved curve's CV RMSE was {c.doc['validation']['cv_rmse']:.6g}", file=out)
+    kind = c.doc["model"]["weighting"]["kind"]
+    print(f"saved curve's CV RMSE was {c.doc['validation']['cv_rmse']:.6g}"
+          + ("" if kind is None else f" (weighted by the calibration's {'stated uncertainties' if kind == 'uncertainty' else 'weights'}: "
+             "not directly comparable with the unweighted RMSE above)"), file=out)
 
 
 def _print_tolerance(tc, out):
