@@ -208,10 +208,15 @@ def _recommend(engine, degrees, lams, cv, se) -> dict:
 
 
 def _pick(engine, rule, degree, lam, grid_lam, degrees, lams) -> Recommendation:
+    # where the penalty cannot act (a constant; a straight line under the curvature penalty) every lambda gives
+    # the same curve: say lambda = 0, which also keeps the exact classical covariance for the export
+    inert = degree == 0 or (engine.penalty == "curvature" and degree <= 1)
+    if inert:
+        lam = grid_lam = 0.0
     m, s, t = engine.cv_summary(degree, [lam])
     edf = float(engine.effective_df(degree, [lam])[0])
     positive = lams[lams > 0]
-    at_lam_edge = bool(positive.size > 1 and (grid_lam == positive[0] or grid_lam == lams[-1]))
+    at_lam_edge = bool(not inert and positive.size > 1 and (grid_lam == positive[0] or grid_lam == lams[-1]))
     return Recommendation(rule, int(degree), float(lam), float(grid_lam), float(m[0]), float(s[0]),
                           float(t[0]), edf, bool(degree == degrees.max() and degrees.size > 1),
                           at_lam_edge)

@@ -144,3 +144,15 @@ def test_excluding_rows_never_moves_another_row_in_or_out_of_the_sealed_set():
         e = core.build_engine(x[keep], y[keep], max_degree=3, folds=5, seed=4, test_fraction=0.3,
                               row_keys=rows[keep])
         assert np.array_equal(e.plan.test_mask, full[keep])
+
+
+def test_a_penalty_that_cannot_act_is_reported_as_lambda_zero():
+    """Under the curvature penalty a straight line is in the penalty's null space (integral of f''^2 = 0), so
+    every lambda gives the same line: the pick says lambda = 0 rather than the grid's top (closed form)."""
+    rng = np.random.default_rng(12)
+    x = np.linspace(0, 10, 40)
+    y = 1 + 0.3 * x + rng.normal(0, 0.05, x.size)
+    s = core.sweep(x, y, [0, 1, 2, 3], None, folds=5, penalty="curvature", seed=2)
+    rec = s.recommended["simplest"]
+    assert rec.degree == 1 and rec.lam == 0.0 and not rec.lambda_at_edge
+    assert rec.cv_mse == pytest.approx(float(s.engine.cv_mean(1, 1e3)), rel=1e-9)
