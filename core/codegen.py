@@ -25,7 +25,8 @@ import numpy as np
 
 from .errors import ParameterError, message
 
-__all__ = ["c_source", "python_source", "spreadsheet_formula", "lookup_table", "test_vectors", "LANGS", "MAX_TABLE_ROWS"]
+__all__ = ["c_source", "python_source", "spreadsheet_formula", "lookup_table", "test_vectors", "header_lines", "LANGS",
+           "MAX_TABLE_ROWS"]
 
 LANGS = ("c", "python", "spreadsheet", "table")
 MAX_TABLE_ROWS = 200_000
@@ -35,7 +36,7 @@ def _num(v: float) -> str:
     return repr(float(v)) if math.isfinite(v) else "nan"
 
 
-def _header_lines(choice) -> list[str]:
+def header_lines(choice) -> list[str]:
     m = choice.doc["model"]
     tx, ty = choice.transforms
     lo, hi = choice.x_range
@@ -67,7 +68,7 @@ def c_source(choice, *, name: str = "curve_eval", range_guard: bool = False) -> 
     coef = choice.legendre
     lo, hi = choice.x_range
     up = name.upper()
-    out = ["/*"] + [f" * {line}" for line in _header_lines(choice)] + [
+    out = ["/*"] + [f" * {line}" for line in header_lines(choice)] + [
         " * Evaluates the stable form: t = (u - center) / half_width, then Clenshaw's recurrence on the",
         " * Legendre coefficients. C99; link with -lm.", " */", "#include <math.h>", "",
         f"#define {up}_X_MIN {_num(lo)}", f"#define {up}_X_MAX {_num(hi)}", "",
@@ -112,7 +113,7 @@ def python_source(choice, *, name: str = "curve_eval", range_guard: bool = False
     dom = choice.domain
     coef = choice.legendre
     lo, hi = choice.x_range
-    doc = ["    \"\"\"" + _header_lines(choice)[0] + "."] + [f"    {line}" for line in _header_lines(choice)[1:]] + \
+    doc = ["    \"\"\"" + header_lines(choice)[0] + "."] + [f"    {line}" for line in header_lines(choice)[1:]] + \
         ["    Stable form: t = (u - center) / half_width, Clenshaw's recurrence on Legendre coefficients.", "    \"\"\""]
     out = [f"def {name}(x):", *doc, "    import math", "",
            f"    coef = ({', '.join(_num(c) for c in coef)},)"]

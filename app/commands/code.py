@@ -76,7 +76,7 @@ def _table_text(c, max_error):
     from core import codegen
 
     xs, ys, info = codegen.lookup_table(c, max_error=max_error)
-    head = [f"# {line}" for line in codegen._header_lines(c)]
+    head = [f"# {line}" for line in codegen.header_lines(c)]
     head.append(f"# linear interpolation between rows stays within {info['max_error']!r} "
                 f"({info['bound_basis']}; measured worst {info['measured_max_error']!r}); rows in "
                 f"{info['spacing']}")
