@@ -7,7 +7,7 @@ import sys
 
 from core.files import write_atomic
 
-from .apply import as_text_safe, reading_options
+from .readings import add_reading_args, as_text_safe, reading_options, reading_values
 from .common import (STDOUT, add_blank_rows, add_force, add_json, add_out, add_reader_args, load_rows, text_out,
                      write_json)
 
@@ -25,10 +25,7 @@ def add_parser(subparsers):
     p.add_argument("--decision", choices=["simple", "guarded"], default="simple",
                    help="simple acceptance (default: |error| <= T) or guarded acceptance (|error| <= T - U, "
                         "U = 2u the expanded uncertainty of the error)")
-    p.add_argument("--reading-uncertainty", metavar="VALUE|COL",
-                   help="standard uncertainty of each measured y (curves fitted with stated uncertainties)")
-    p.add_argument("--reading-weight", metavar="VALUE|COL",
-                   help="relative weight of each measured y (curves fitted with relative weights)")
+    add_reading_args(p, "each measured y")
     add_out(p, help="with --tolerance: per-row decisions as CSV here ('-': standard output)")
     add_blank_rows(p)
     add_reader_args(p)
@@ -56,13 +53,9 @@ def run(args, out) -> int:
     _print_scores(c, sc, text)
     _warn_about_rows(c, t, sc)
     if args.tolerance is not None:
-        import numpy as np
-
         from core.tolerance import tolerance_check
 
-        ru = opts["u"] if opts["u"] is not None else (None if "uncertainty" not in opts["columns"]
-                                                      else 1.0 / np.sqrt(t.weights))
-        rw = opts["w"] if opts["w"] is not None else (None if "weights" not in opts["columns"] else t.weights)
+        ru, rw = reading_values(opts, t)
         tc = tolerance_check(c, t.x.values, t.y.values, args.tolerance, relative=args.relative,
                              rule=args.decision, rows=t.row_numbers, reading_u=ru, reading_weight=rw)
         _print_tolerance(tc, text)

@@ -13,7 +13,7 @@ from core.errors import ParameterError, message
 from core.files import write_atomic
 from core.table import read_frame, read_table
 
-from .apply import as_text_safe, reading_options
+from .readings import add_reading_args, as_text_safe, reading_options, reading_values
 from .common import (STDOUT, add_blank_rows, add_force, add_json, add_out, add_reader_args, reader_options,
                      text_out, write_json)
 
@@ -39,12 +39,7 @@ def add_parser(subparsers):
                    help="readings sharing a value in this column are replicates of one unknown: their mean is read "
                         "back, one output row per group")
     p.add_argument("--coverage", type=float, default=defaults.COVERAGE, help="share the interval covers (default 0.95)")
-    p.add_argument("--reading-uncertainty", metavar="VALUE|COL",
-                   help="standard uncertainty of one reading, in y units (a number or a column); for curves fitted "
-                        "with stated uncertainties (default: interpolated from the calibration rows' u)")
-    p.add_argument("--reading-weight", metavar="VALUE|COL",
-                   help="relative weight of one reading (a number or a column); for curves fitted with relative "
-                        "weights (default: the calibration rows' median weight)")
+    add_reading_args(p, "one reading")
     add_out(p, help="output CSV (default, or '-': standard output)")
     add_json(p, help="write the read-back as JSON here")
     add_blank_rows(p)
@@ -70,9 +65,7 @@ def run(args, out) -> int:
     if t.rows_dropped:
         print(f"note: skipped {len(t.rows_dropped)} row(s) with blank cells.", file=sys.stderr)
     y = t.x.values
-    ru = opts["u"] if opts["u"] is not None else (None if "uncertainty" not in opts["columns"]
-                                                  else 1.0 / np.sqrt(t.weights))
-    rw = opts["w"] if opts["w"] is not None else (None if "weights" not in opts["columns"] else t.weights)
+    ru, rw = reading_values(opts, t)
     if args.group:
         frame, y, reps, ru, rw = _grouped(t, y, ru, rw)
     else:
