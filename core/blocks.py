@@ -74,6 +74,11 @@ class BlockAccumulator:
         self.weighted = False
         self._buf = None                      # the block's basis matrix, column-major, reused
 
+    def __getstate__(self):
+        state = dict(self.__dict__)
+        state["_buf"] = None                  # a partition's result travels without its work buffer
+        return state
+
     # ---- adding rows ------------------------------------------------------------------
     def add_rows(self, start: int, x, y, w=None) -> None:
         """Rows with global indices start, start + 1, ... (in order)."""
