@@ -17,8 +17,8 @@ Both reads go through the fast reader (``core.fastread``: pyarrow converts the s
 of a text file into numbers block by block) when it can vouch for the file, and the scan still
 runs the careful checks of ``core.selection`` on what it converted. At the first doubt, or at
 any problem of the file, the scan reads the file again with the careful reader, whose numbers or
-message are then the result: a file is never read two ways. ``Scan.fast`` records which reader
-read it, and the second read uses the same one.
+message are then the result: the numbers of a file never come from both readers. ``Scan.fast``
+records which reader read it, and the second read uses the same one.
 """
 
 from __future__ import annotations
@@ -156,8 +156,10 @@ def scan_file(path, *, x, y, weights=None, uncertainty=None, blank_rows: str = "
     if reader != "careful" and src.kind in ("text", "parquet"):    # sources holding no state of a read
         try:
             return _scan(*args, fast=True)
-        except Exception:  # noqa: BLE001 - whatever the fast read met (Unsure, a problem of the file,
-            if reader == "fast":   # a pyarrow error) is the careful reader's to judge, with its message
+        except Exception:  # noqa: BLE001 - Unsure, a problem of the file or a pyarrow error: the
+            # careful reader judges the file, with its own message (the typed batches of a Parquet
+            # file are the careful reader's own, so a refusal of one stands as it is)
+            if reader == "fast" or src.kind == "parquet":
                 raise
     elif reader == "fast":
         raise Unsure(f"a {src.kind} source")
