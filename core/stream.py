@@ -218,7 +218,8 @@ def iter_values(path, specs: dict, *, blank_rows: str = "refuse", chunk_rows: in
     ``scan_file`` has read and checked, by the reader that read it (``fast`` is its ``Scan.fast``).
 
     The careful reader checks every chunk again; the fast one takes the values as the scan found
-    them (refusing, as a changed file, anything the scan would not have passed)."""
+    them, and refuses as a change of the file a missing value where the scan refused them, a value
+    that is not finite, or a block it can no longer vouch for."""
     options = dict(sheet=sheet, header=header, skip_rows=skip_rows, comment=comment)
     fname = Path(path).name
     if not fast:
