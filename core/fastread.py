@@ -11,16 +11,16 @@ lines below the header:
 * The bytes: UTF-8 or Latin-1 text (as the careful reader decided them; UTF-16 and UTF-32 go the
   careful way); no quote character, so every line is one record and every delimiter separates two
   cells; line breaks ``\\n`` or ``\\r\\n`` only (a lone ``\\r`` also ends a line for the careful
-  reader); no line near the careful reader's cell cap; no comment character at all when comment
-  lines are left out.
+  reader); every line shorter than the careful reader's cap on a cell; no comment character at
+  all when comment lines are left out.
 * The rows: pyarrow leaves out empty lines, which the careful reader counts and skips too, so a
   record's spreadsheet row is its line number; when pyarrow returns fewer records than the block
   has lines, the empty lines are located and every other line must be a record. A line with
   another number of cells than the header is a pyarrow error, hence ``Unsure``.
 * The numbers: every spelling pyarrow converts to a finite float64 with the column's decimal mark
-  is one ``core.cells`` accepts with the same value (pyarrow's parser is the one ``core.cells``
-  casts with; tests/core/test_fastread.py enumerates the spellings); empty cells and ``nan`` in any
-  case are missing for both; any other NaN, and every problem of a value (infinite, too large, not
+  is one ``core.cells`` accepts, with the same value to the bit (tests/core/test_fastread.py
+  enumerates the short spellings and compares long ones with Python's float()); empty cells and
+  ``nan`` in any case are missing for both; any other NaN, and every problem of a value (infinite, too large, not
   positive), is left to the careful checks of ``core.selection``, which the scan still runs on the
   typed columns.
 * The decimal marks of a semicolon-separated file: a block holding both a comma and a point is
