@@ -32,6 +32,14 @@ __all__ = ["hash_unit", "hash_cells", "BlockAccumulator", "BLOCK_ROWS"]
 BLOCK_ROWS = 8192
 
 
+def _one_blas_thread():
+    """Single-threaded BLAS for the statements inside (set once per call of the accumulator, not
+    per block: finding the BLAS libraries costs about a millisecond)."""
+    from threadpoolctl import threadpool_limits
+
+    return threadpool_limits(1, user_api="blas")
+
+
 @dataclass
 class _Pending:
     """Rows of a block seen only in part so far: (first global index, x, y, w) pieces."""
@@ -64,6 +72,12 @@ class BlockAccumulator:
         self.counts = np.zeros(self.n_cells, dtype=np.int64)
         self.pending: dict[int, _Pending] = {}
         self.weighted = False
+        self._buf = None                      # the block's basis matrix, column-major, reused
+
+    def __getstate__(self):
+        state = dict(self.__dict__)
+        state["_buf"] = None                  # a partition's result travels without its work buffer
+        return state
 
     # ---- adding rows ------------------------------------------------------------------
     def add_rows(self, start: int, x, y, w=None) -> None:
@@ -75,19 +89,20 @@ class BlockAccumulator:
         G = self.block_rows
         pos = 0
         n = len(x)
-        while pos < n:
-            g = start + pos
-            b = g // G
-            end = min(n, pos + (b + 1) * G - g)
-            piece = (g, x[pos:end], y[pos:end], None if w is None else w[pos:end])
-            if g == b * G and end - pos == G:
-                self._block(*piece)
-            else:
-                pend = self.pending.setdefault(b, _Pending())
-                pend.pieces.append(piece)
-                if pend.rows == G:
-                    self._complete(b)
-            pos = end
+        with _one_blas_thread():
+            while pos < n:
+                g = start + pos
+                b = g // G
+                end = min(n, pos + (b + 1) * G - g)
+                piece = (g, x[pos:end], y[pos:end], None if w is None else w[pos:end])
+                if g == b * G and end - pos == G:
+                    self._block(*piece)
+                else:
+                    pend = self.pending.setdefault(b, _Pending())
+                    pend.pieces.append(piece)
+                    if pend.rows == G:
+                        self._complete(b)
+                pos = end
 
     def _complete(self, b: int) -> None:
         pieces = sorted(self.pending.pop(b).pieces, key=lambda p: p[0])
@@ -97,22 +112,31 @@ class BlockAccumulator:
         self._block(pieces[0][0], x, y, w)
 
     def _block(self, start: int, x, y, w) -> None:
-        from threadpoolctl import threadpool_limits
-
+        """One block's per-cell sums: the rows of each cell, in row order, as one (rows x (D + 2))
+        matrix whose Gram matrix single-threaded BLAS forms (callers hold ``_one_blas_thread``)."""
         m = len(x)
-        B = np.empty((m, self.D + 2))
-        legendre_columns(self.domain.map(x), self.D, out=B[:, : self.D + 1])
-        B[:, self.D + 1] = y - self.y_shift
-        if w is not None:
-            B *= np.sqrt(w)[:, None]
+        D = self.D
+        if self._buf is None or self._buf.shape[0] < m:
+            self._buf = np.empty((max(m, self.block_rows), D + 2), order="F")
+        t = self.domain.map(x)
         labels = hash_cells(np.arange(start, start + m), seed=self.seed, k=self.k, repeats=self.R,
                             test_fraction=self.test_fraction)
-        with threadpool_limits(1, user_api="blas"):
-            for lab in labels:
-                for c in np.unique(lab[lab >= 0]):
-                    blk = np.ascontiguousarray(B[lab == c])
-                    self._add(c, blk.T @ blk)
-                    self.counts[c] += len(blk)
+        small = self.n_cells < 2**15          # 16-bit keys sort by radix, in linear time
+        for lab in labels:
+            # the rows of every cell together, each cell's rows in their own order
+            order = np.argsort(lab.astype(np.int16) if small else lab, kind="stable")
+            cnt = np.bincount(lab + 1, minlength=self.n_cells + 1)
+            B = self._buf[:m]
+            legendre_columns(t[order], D, out=B[:, : D + 1])
+            np.subtract(y[order], self.y_shift, out=B[:, D + 1])
+            if w is not None:
+                B *= np.sqrt(w[order])[:, None]
+            pos = int(cnt[0])                 # rows of no cell (-1) sort first
+            for c in np.flatnonzero(cnt[1:]):
+                blk = B[pos:pos + int(cnt[c + 1])]
+                self._add(c, blk.T @ blk)
+                self.counts[c] += len(blk)
+                pos += len(blk)
 
     def _add(self, c: int, g: np.ndarray) -> None:
         s = self.hi[c] + g
@@ -129,15 +153,17 @@ class BlockAccumulator:
             self.lo[c] += other.lo[c]
         self.counts += other.counts
         self.weighted = self.weighted or other.weighted
-        for b, pend in other.pending.items():
-            mine = self.pending.setdefault(b, _Pending())
-            mine.pieces.extend(pend.pieces)
-            if mine.rows == self.block_rows:
-                self._complete(b)
+        with _one_blas_thread():
+            for b, pend in other.pending.items():
+                mine = self.pending.setdefault(b, _Pending())
+                mine.pieces.extend(pend.pieces)
+                if mine.rows == self.block_rows:
+                    self._complete(b)
         return self
 
     def finish(self) -> Moments:
         """Compute the remaining partial blocks (the data's last one) and return the statistics."""
-        for b in sorted(self.pending):
-            self._complete(b)
+        with _one_blas_thread():
+            for b in sorted(self.pending):
+                self._complete(b)
         return Moments(self.domain, self.D, self.y_shift, self.hi + self.lo, self.counts.copy(), self.weighted)

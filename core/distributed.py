@@ -29,7 +29,7 @@ from .errors import DataError, ParameterError, message
 from .folds import FoldPlan, check_fold_rows
 from .params import check, combination
 from .select import Surface, surface_from_engine
-from .stream import chunk_columns, iter_chunks, scan_file
+from .stream import chunk_columns, iter_chunks, iter_values, scan_file
 from .validate import single_x
 
 __all__ = ["sweep_files", "sweep_chunks", "expand_paths"]
@@ -49,16 +49,16 @@ def expand_paths(spec) -> list[Path]:
     return files
 
 
-def _file_stats(path, offset, specs, blank_rows, chunk_rows, acc_args, acc=None, on_chunk=None):
+def _file_stats(path, offset, specs, blank_rows, chunk_rows, acc_args, fast=False, acc=None, on_chunk=None):
     """One file's statistics (a Dask task, or a step of the local engine given ``acc``).
 
     Returns the accumulator, edge rows of partial blocks still pending. ``on_chunk(rows)`` is
-    called with the rows of the file done so far.
+    called with the rows of the file done so far. The file is read by the reader its scan used
+    (``fast``: ``Scan.fast``; ``core.stream.iter_values``).
     """
     acc = BlockAccumulator(**acc_args) if acc is None else acc
     pos = offset
-    for names, off, frame, decimal in iter_chunks(path, specs, chunk_rows=chunk_rows):
-        xv, yv, w, _, _ = chunk_columns(names, off, frame, decimal, Path(path).name, blank_rows)
+    for xv, yv, w in iter_values(path, specs, blank_rows=blank_rows, chunk_rows=chunk_rows, fast=fast):
         acc.add_rows(pos, xv, yv, w)
         pos += xv.size
         if on_chunk is not None:
@@ -135,7 +135,7 @@ def sweep_files(paths, degrees, lambdas=None, *, x, y, weights=None, uncertainty
 
             futures = client.map(_file_stats, [str(p) for p in paths], offsets[:-1].tolist(),
                                  [specs] * len(paths), [blank_rows] * len(paths), [chunk_rows] * len(paths),
-                                 [acc_args] * len(paths), pure=False)
+                                 [acc_args] * len(paths), [s.fast for s in scans], pure=False)
             parts = {}
             index = {f.key: i for i, f in enumerate(futures)}
             done_rows = 0
@@ -154,7 +154,7 @@ def sweep_files(paths, degrees, lambdas=None, *, x, y, weights=None, uncertainty
             for p, off, sc in zip(paths, offsets[:-1], scans):
                 report = None if progress is None else \
                     (lambda rows, base=done_rows: progress(base + rows, total, time.perf_counter() - t0))
-                _file_stats(p, int(off), specs, blank_rows, chunk_rows, acc_args, acc=acc, on_chunk=report)
+                _file_stats(p, int(off), specs, blank_rows, chunk_rows, acc_args, sc.fast, acc=acc, on_chunk=report)
                 done_rows += sc.rows_used
     finally:
         if own_cluster is not None:
