@@ -132,7 +132,10 @@ def _arrow(a, rows, column, marks):
         a = a.dictionary_decode()
     if pa.types.is_string(a.type) or pa.types.is_large_string(a.type):
         return _text(a.cast(pa.string()), None, rows, column, marks)
-    vals = pc.cast(a, pa.float64()).to_numpy(zero_copy_only=False).astype(np.float64, copy=True)
+    # integers beyond 2^53 round to the nearest double, as the same digits written as text do (float()); a
+    # "safe" cast would refuse them with an arrow error instead of a value
+    vals = pc.cast(a, pa.float64(), safe=not pa.types.is_integer(a.type)).to_numpy(zero_copy_only=False)
+    vals = vals.astype(np.float64, copy=True)
     miss = np.isnan(vals)
     return vals, miss, _limits(vals, rows, column, marks, lambda i: repr(float(vals[i])))
 

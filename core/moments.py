@@ -208,7 +208,14 @@ class Accumulator:
 
 def accumulate(x, y, *, labels, n_cells: int, domain: Domain, max_degree: int,
                weights=None, y_shift: float | None = None, chunk: int = DEFAULT_CHUNK) -> Moments:
-    """One pass over in-memory arrays (see ``Accumulator``)."""
+    """One pass over in-memory arrays (see ``Accumulator``).
+
+    Runs with one BLAS thread, as the streamed pass does: the sums are the same bits (the blocks are
+    canonical), and a second thread waiting for a busy core can stall each small product many times over.
+    """
+    from threadpoolctl import threadpool_limits
+
     acc = Accumulator(domain, max_degree, n_cells, y_shift=y_shift, chunk=chunk)
-    acc.update(x, y, weights, labels)
+    with threadpool_limits(1, user_api="blas"):
+        acc.update(x, y, weights, labels)
     return acc.result()

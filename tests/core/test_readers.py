@@ -274,3 +274,12 @@ def test_damaged_workbook_parts_are_refused_cleanly(tmp_path):
     with pytest.raises(DataError, match=r"^File 'b.xlsx'( sheet 'S')?: expected a readable .xlsx workbook, got .+\. "
                        r"Open it in a spreadsheet program and save it again as .xlsx\.$"):
         read_table(bad, x="x", y="y")
+
+
+def test_parquet_integers_beyond_2_to_the_53_round_like_their_text(tmp_path):
+    """An int64 column with a value beyond 2^53 reads as the nearest double, exactly as the same digits written
+    in a CSV do (Python's float() of the text), instead of escaping as an arrow error."""
+    p = tmp_path / "big.parquet"
+    pq.write_table(pa.table({"x": pa.array([1, 2, 3, 2 ** 60 + 1], pa.int64()), "y": [1.0, 2.0, 2.5, 4.0]}), p)
+    t = read_table(p, x="x", y="y")
+    assert t.x.values[-1] == float(str(2 ** 60 + 1))
