@@ -27,6 +27,7 @@ def add_parser(subparsers):
                         "U = 2u the expanded uncertainty of the error)")
     add_reading_args(p, "each measured y")
     add_out(p, help="with --tolerance: per-row decisions as CSV here ('-': standard output)")
+    p.add_argument("--report", metavar="HTML", help="with --tolerance: a standalone HTML record of the check here")
     add_blank_rows(p)
     add_reader_args(p)
     add_json(p, help="write the scores (and decisions) as JSON here")
@@ -41,10 +42,10 @@ def run(args, out) -> int:
     c = Choice.load(args.choice)
     for note in c.notices:
         print(f"note: {note}", file=sys.stderr)
-    if args.tolerance is None and (args.relative or args.decision != "simple" or args.out):
+    if args.tolerance is None and (args.relative or args.decision != "simple" or args.out or args.report):
         from core.errors import ParameterError, message
 
-        raise ParameterError(message("Options --relative, --decision and --out", "--tolerance T as well",
+        raise ParameterError(message("Options --relative, --decision, --out and --report", "--tolerance T as well",
                                      "no tolerance", "Give the tolerance with --tolerance"))
     opts = reading_options(args, c)
     t, frame = load_rows(args, args.y, frame=args.out is not None, **opts["columns"])
@@ -62,6 +63,13 @@ def run(args, out) -> int:
         sc["tolerance_check"] = tc
         if args.out:
             _write_rows(args, frame, tc, out)
+        if args.report:
+            from pathlib import Path
+
+            from ..decisions import decisions_html
+
+            write_atomic(args.report, decisions_html(c, Path(args.data).name, sc, tc), force=args.force)
+            print(f"wrote the check's record to {args.report}", file=sys.stderr)
     if args.json:
         write_json(args.json, sc, force=args.force, out=out)
     return 0 if args.tolerance is None or sc["tolerance_check"]["overall"] == "pass" else 1

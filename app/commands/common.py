@@ -28,7 +28,7 @@ __all__ = [
 EXIT_BAD_INPUT = 2
 
 # Options naming a file or folder a command writes; every other path a command opens is read.
-OUTPUT_OPTIONS = ("json", "out", "save", "save_stats", "images")
+OUTPUT_OPTIONS = ("json", "out", "save", "save_stats", "images", "report")
 STDOUT = "-"         # as an output path: write to standard output instead of a file
 
 

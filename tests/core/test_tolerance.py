@@ -95,3 +95,26 @@ def test_check_command_exit_code_says_pass_or_fail(line, tmp_path, capsys):
     assert main(["check", str(choice), str(data), "--x", "x", "--y", "y", "--tolerance", "0.5"]) == 0
     assert main(["check", str(choice), str(data), "--x", "x", "--y", "y", "--relative"]) == 2
     assert "--tolerance T as well" in capsys.readouterr().err
+
+
+def test_check_report_records_rule_verdict_and_escapes_file_text(line, tmp_path):
+    import html.parser
+
+    c, x, y = line
+    choice = tmp_path / "c.json"
+    doc = c.to_dict()
+    doc["data"]["x_column"] = "<script>alert(1)</script>"
+    from core.choice import Choice
+    from core.choice_check import content_digest
+
+    doc["digest"]["value"] = content_digest(doc)
+    Choice.from_dict(doc).save(choice)
+    data = tmp_path / "<b>new.csv"
+    data.write_text("x,y\n1,1.5\n4,3.0\n7,9.0\n")
+    rep = tmp_path / "r.html"
+    assert main(["check", str(choice), str(data), "--x", "x", "--y", "y", "--tolerance", "0.2", "--decision", "guarded",
+                 "--report", str(rep)]) == 1
+    text = rep.read_text()
+    assert "<script>" not in text and "&lt;script&gt;" in text and "&lt;b&gt;new.csv" in text
+    assert "guarded acceptance (ILAC-G8:09/2019)" in text and "FAIL: " in text and "Caution." in text
+    html.parser.HTMLParser().feed(text)
