@@ -41,6 +41,12 @@ def _model_for(choice: Choice, data_path) -> PageModel:
     the data or the recomputed CV error differ)."""
     doc = choice.doc
     d, m, v = doc["data"], doc["model"], doc["validation"]
+    tf = m.get("transforms") or {"x": "none", "y": "none"}
+    if (tf["x"], tf["y"]) != ("none", "none"):
+        raise DataError(message("Choice file field 'model/transforms'", "no transform for a report",
+                                f"x: {tf['x']}, y: {tf['y']}",
+                                "The report does not re-derive curves fitted in transformed variables yet; "
+                                "use 'curvewright check' on the data to score it"))
     if v["scheme"] == "explicit":
         raise DataError(message("Choice file field 'validation/scheme'", "kfold or group for a report",
                                 "'explicit'", "Explicit fold columns are not re-read by the report yet"))
@@ -92,6 +98,42 @@ def _notices(choice: Choice, model: PageModel, infl) -> list[str]:
         out.append("The sealed test set was not looked at before this choice was exported: its error is not "
                    "part of this report.")
     return out
+
+
+def _calibration_html(doc: dict) -> str:
+    """Lack of fit and detection limits as the choice file records them (nothing recomputed here:
+    the numbers are the file's own, each with its method)."""
+    cal = doc.get("calibration") or {}
+    weighted = (doc["model"].get("weighting") or {}).get("kind") == "uncertainty"
+    parts = []
+    lof = cal.get("lack_of_fit")
+    if lof:
+        verdict = ("the curve misses a trend the replicates resolve" if lof["p_value"] < 0.01 else
+                   "no lack of fit detected at the 1% level")
+        parts.append(f"<li>Lack of fit against the replicates' own scatter: F = <b data-field='lof_F'>{_f(lof['F'])}</b> "
+                     f"on ({_f(lof['df_lack'], 4)}, {lof['df_pure']}) degrees of freedom, p = {_f(lof['p_value'], 3)}: "
+                     f"{verdict}; " + (f"replicates scatter {_f(lof['pure_error_sd'], 4)} times the stated "
+                                       "uncertainties (near 1: as stated)" if weighted else
+                                       f"pure-error SD {_f(lof['pure_error_sd'])} (the noise floor for the CV RMSE)")
+                     + ".</li>")
+    else:
+        parts.append("<li>Lack of fit: not tested (no x value is repeated, so there is no pure error to compare "
+                     "against).</li>")
+    lim = cal.get("limits") or {}
+    ich, hv = lim.get("ich_q2"), lim.get("hubaux_vos")
+    if ich:
+        parts.append(f"<li>{html.escape(ich['method'])}: sigma {_f(ich['sigma'])} ({html.escape(ich['sigma_from'])}), "
+                     f"slope {_f(ich['slope'])}; detection limit <b data-field='ich_dl'>{_f(ich['detection_limit'])}</b>, "
+                     f"quantitation limit {_f(ich['quantitation_limit'])}.</li>")
+    if hv:
+        parts.append(f"<li>{html.escape(hv['method'])} (alpha = {hv['alpha']}, beta = {hv['beta']}): decision level "
+                     f"{_f(hv['decision_level_y'])} in y (x {_f(hv['decision_limit_x'])}), detection limit "
+                     f"<b data-field='hv_dl'>{_f(hv['detection_limit_x'])}</b>.</li>")
+    if lim.get("note"):
+        parts.append(f"<li>Limits: {html.escape(lim['note'])}</li>")
+    elif not (ich or hv):
+        parts.append("<li>Detection limits: not given (the calibrated range does not include a blank, x = 0).</li>")
+    return "<h2>Calibration checks</h2><ul>" + "".join(parts) + "</ul>"
 
 
 def build_report(choice: Choice, data_path) -> str:
@@ -155,6 +197,7 @@ parameters. {html.escape(reading)}</p>
 <p>Stable form used for every prediction: y = sum c<sub>j</sub> P<sub>j</sub>(t), t = (x - {m['domain']['center']!r}) / {m['domain']['half_width']!r}.</p>
 <table border="1" cellpadding="4" style="border-collapse:collapse">{leg_rows}</table>
 {width_html}
+{_calibration_html(doc)}
 <h2>Validation</h2>
 <ul><li>Folds: {html.escape(v['scheme'])}, k = {v['k']}, repeats = {v['repeats']}, seed = {v['seed']}</li>
 <li>CV MSE {v['cv_mse']:.10g} (SE {_f(se, 4)}), training MSE {v['train_mse']:.10g}, effective df {v['effective_df']:.6g}</li>

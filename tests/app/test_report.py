@@ -104,3 +104,27 @@ def test_report_of_a_page_choice_rederives_it_through_the_page_model(tmp_path):
     html = build_report(choice, DATA)
     assert float(field(html, "cv_rmse")[0]) == pytest.approx(choice.doc["validation"]["cv_rmse"], rel=1e-9)
     assert int(field(html, "degree")[0]) == 3
+
+
+ASSAY = ROOT / "sample_sets" / "assay_calibration.csv"
+
+
+def test_report_shows_the_files_lack_of_fit_and_limits(tmp_path):
+    """An assay calibration with replicates and a blank: the report's calibration section prints the choice
+    file's own lack-of-fit F and both detection limits (ICH Q2(R2) and Hubaux & Vos 1970), rounded to 6 digits."""
+    choice, out = tmp_path / "a.json", tmp_path / "a.html"
+    assert main(["sweep", str(ASSAY), "--x", "conc", "--y", "signal", "--uncertainty", "u_signal", "--degrees", "0-3",
+                 "--save", str(choice)]) == 0
+    assert main(["report", str(choice), str(ASSAY), "--out", str(out)]) == 0
+    cal = json.loads(choice.read_text())["calibration"]
+    html = out.read_text()
+    assert float(field(html, "lof_F")[0]) == pytest.approx(cal["lack_of_fit"]["F"], rel=1e-5)
+    assert float(field(html, "ich_dl")[0]) == pytest.approx(cal["limits"]["ich_q2"]["detection_limit"], rel=1e-5)
+    assert float(field(html, "hv_dl")[0]) == pytest.approx(cal["limits"]["hubaux_vos"]["detection_limit_x"], rel=1e-5)
+    assert "times the stated uncertainties" in html
+
+
+def test_report_without_replicates_says_lack_of_fit_was_not_tested(made):
+    """The furnace set has no repeated x: the report says why there is no lack-of-fit test, not nothing."""
+    _, _, out = made
+    assert "Lack of fit: not tested (no x value is repeated" in out.read_text()
