@@ -20,6 +20,7 @@ from core.errors import CurvewrightError
 from core.table import unit_of
 
 from .session import LOG_LAMBDA_OFF
+from .text import LEARNING_NEEDS_ROWS, LEARNING_UNPENALIZED
 
 __all__ = ["PageActions"]
 
@@ -57,22 +58,32 @@ class PageActions:
         self.version += 1
 
     def compute_learning_curve(self) -> None:
-        """Learning curve of the current setting (``learning``); needs the rows."""
+        """Learning curve of the current setting (``learning``); needs the rows.
+
+        Called whenever a slider settles and after new data, so its tab always shows the setting in
+        use. The ridge and curvature penalties are scored at the slider's lambda over the engine's x
+        range (so lambda means what it means on the other plots); the lasso and elastic net, which
+        have no fit from a subset's statistics, are shown at lambda = 0 and say so."""
         e = self.engine
         if e is None:
             return
         if not self.has_rows:
-            self.status = "A learning curve needs the rows; statistics alone cannot give one."
+            self.learning, self.learning_note = None, LEARNING_NEEDS_ROWS
+            self.version += 1
             return
         d, lam = self.setting()
+        quadratic = e.penalty in ("ridge", "curvature")
         x, y, w = self.plan_rows()
         s = self.session
         self.busy = True
         try:
-            self.learning = core.size_curve(x, y, d, lam, folds=e.plan.k, repeats=2, seed=s.seed,
-                                            weights=w, test_fraction=s.test_fraction)
+            self.learning = core.size_curve(x, y, d, lam if quadratic else 0.0, folds=e.plan.k, repeats=2,
+                                            seed=s.seed, weights=w, test_fraction=s.test_fraction,
+                                            intercept=e.intercept, penalty=e.penalty if quadratic else "ridge",
+                                            domain=e.domain)
+            self.learning_note = "" if quadratic else LEARNING_UNPENALIZED
         except CurvewrightError as exc:
-            self.status = f"Learning curve: {exc}"
+            self.learning, self.learning_note = None, f"No learning curve for this setting: {exc}"
         finally:
             self.busy = False
         self.version += 1

@@ -55,6 +55,7 @@ class PageModel(PageActions, param.Parameterized):
         self.engine = None
         self.surface = None
         self.learning = None
+        self.learning_note = ""       # why the learning curve is missing or differs from the setting
         self.bias_var = None
         self.out: dict = {}
         self._full_table = None       # before exclusions
@@ -252,6 +253,12 @@ class PageModel(PageActions, param.Parameterized):
             s.degree = engine.max_degree          # the setting watcher refreshes
         else:
             self.refresh()
+        self.settle()
+
+    def settle(self) -> None:
+        """The slower outputs of the current setting, recomputed when a slider comes to rest (and after
+        new data): the learning curve."""
+        self.compute_learning_curve()
 
     def rebuild(self) -> None:
         """New statistics for the same table (folds, seed, sealed or training fraction changed)."""
@@ -292,6 +299,7 @@ class PageModel(PageActions, param.Parameterized):
         self.engine, self.surface = engine, surface
         self.data_version += 1
         self.refresh()
+        self.settle()
 
     # ---- live outputs -------------------------------------------------------------------
     def _on_setting(self, *_):

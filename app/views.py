@@ -21,7 +21,7 @@ from core.errors import CurvewrightError
 
 from . import plots
 from .model import PageModel
-from .text import CAUTION, HELP
+from .text import CAUTION, learning_reading
 
 
 def _plain(text: str) -> str:
@@ -48,7 +48,7 @@ class Workspace(param.Parameterized):
         self.fd, self.fl, self.fh, self.lc_fig = f.fd, f.fl, f.fh, f.lc_fig
         self.status = pn.pane.Alert("", alert_type="light", sizing_mode="stretch_width", name="status")
         self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
-        self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
+        self.lc_text = pn.pane.Markdown("", sizing_mode="stretch_width", name="learning_text")
         self._build_widgets()
         m.param.watch(self._on_version, "version")
         m.param.watch(self._on_status, "status")
@@ -63,8 +63,14 @@ class Workspace(param.Parameterized):
         self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", sizing_mode="stretch_width")
         self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="log10 lambda (left end: 0)",
                                                      sizing_mode="stretch_width")
-        self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, label="Training fraction",
-                                                      sizing_mode="stretch_width")
+        # the training fraction rebuilds the statistics: it applies once the slider is released
+        p = s.param.train_fraction
+        self.frac = pn.widgets.FloatSlider(name="Training fraction", start=p.bounds[0], end=p.bounds[1], step=p.step,
+                                           value=s.train_fraction, sizing_mode="stretch_width",
+                                           css_classes=["cw-train-fraction"])
+        self.frac.param.watch(lambda e: setattr(s, "train_fraction", e.new), "value_throttled")
+        for w in (self.degree, self.lam):
+            w.param.watch(self._on_settle, "value_throttled")
         self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds (k)", width=90)
         self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", width=90)
         self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction",
@@ -84,8 +90,6 @@ class Workspace(param.Parameterized):
         self.rec_1se = pn.widgets.Button(label="Suggest: simplest within one SE", color="primary")
         self.rec_min.on_click(lambda e: self._safe(lambda: m.recommend("lowest")))
         self.rec_1se.on_click(lambda e: self._safe(lambda: m.recommend("simplest")))
-        self.lc_button = pn.widgets.Button(label="Learning curve", color="default")
-        self.lc_button.on_click(lambda e: self._safe(m.compute_learning_curve))
         self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning")
         self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False)
         self.confirm_btn = pn.widgets.Button(label="Confirm reveal", color="danger", visible=False)
@@ -146,6 +150,14 @@ class Workspace(param.Parameterized):
         self.xcol.options, self.ycol.options, self.wcol.options = cols, cols, [""] + cols
         self.xcol.value, self.ycol.value = m.session.x_column, m.session.y_column
 
+    def _on_settle(self, _):
+        # the slider's own value may arrive in the same message: read the session on the next tick
+        doc = pn.state.curdoc
+        if doc is not None and doc.session_context is not None:
+            doc.add_next_tick_callback(lambda: self._safe(self.model.settle))
+        else:
+            self._safe(self.model.settle)
+
     def _ask_reveal(self, _):
         self.confirm.visible = True
         self.confirm_btn.visible = True
@@ -196,7 +208,6 @@ class Workspace(param.Parameterized):
 
     def _update_data_views(self):
         self.figs.update_data(self.model)
-        self.lc_text.object = "Press *Learning curve* to compute it for the current setting."
 
     def _on_version(self, *_):
         # Button events arrive outside the document lock; ``unlocked`` sends the
@@ -209,11 +220,17 @@ class Workspace(param.Parameterized):
         if not m.out:
             return
         self.figs.update(m, show_sealed=m.surface is not None and m.surface.test_revealed)
-        if m.learning is not None:
-            self.lc_text.object = (f"**Reading (guidance, not certainty):** "
-                                   f"{m.learning.reading()}  \n"
-                                   f"Computed for degree {m.learning.degree}, lambda {_fmt(m.learning.lam, 3)}.")
+        self.lc_text.object = self._learning_md()
         self.numbers.object = self._numbers_md(m.out)
+
+    def _learning_md(self) -> str:
+        m = self.model
+        lc = m.learning
+        if lc is None:
+            return _plain(m.learning_note or "The learning curve appears once a setting is chosen.")
+        head = (f"Degree {lc.degree}, lambda {_fmt(lc.lam, 3)} ({m.engine.penalty if not m.learning_note else 'none'})"
+                f", {lc.folds} folds x {lc.repeats} repeats; recomputed whenever a slider comes to rest.")
+        return "  \n".join(_plain(t) for t in (learning_reading(lc), head, m.learning_note) if t)
 
     def _numbers_md(self, out) -> str:
         m = self.model
@@ -269,7 +286,7 @@ class Workspace(param.Parameterized):
             pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), pn.Row(self.wcol, self.wkind), self.apply_cols,
             pn.pane.Markdown("#### Flexibility"), self.degree, self.lam, pn.Row(self.penalty, self.mix),
             pn.pane.Markdown("#### Validation"), self.frac, pn.Row(self.folds, self.seed), self.test,
-            pn.Row(self.rec_min), pn.Row(self.rec_1se), self.lc_button,
+            pn.Row(self.rec_min), pn.Row(self.rec_1se),
             pn.pane.Markdown("#### Uncertainty and outliers"), pn.Row(self.boot, self.bv), self.exclude,
             pn.pane.Markdown("#### Sealed test and export"), self.reveal, self.confirm, self.confirm_btn,
             self.notes, self.download, self.report, self.save_beside,
@@ -282,9 +299,8 @@ class Workspace(param.Parameterized):
         cx_tab = pn.Column(pn.Row(self.fd, self.fl, sizing_mode="stretch_width"), self.fh,
                            sizing_mode="stretch_width")
         lc_tab = pn.Column(self.lc_fig, self.lc_text, sizing_mode="stretch_width")
-        help_tab = pn.pane.Markdown(HELP, sizing_mode="stretch_width")
         tabs = pn.Tabs(("Curve & residuals", curve_tab), ("Error vs flexibility", cx_tab),
-                       ("Learning curve", lc_tab), ("How to read this", help_tab),
+                       ("Learning curve", lc_tab),
                        dynamic=False, sizing_mode="stretch_width")
         header = pn.Row(pn.pane.Markdown("## curvewright · how flexible may this curve be?",
                                          styles={"color": plots.INK}), self.busy, sizing_mode="stretch_width")
