@@ -1,4 +1,4 @@
-"""The page's buttons: recommendations, bias/variance, learning curve,
+"""The page's buttons: recommendations, bootstrap band, bias/variance, learning curve,
 sealed-test reveal, the choice document and saving it.
 
 ``PageActions`` is mixed into ``app.model.PageModel`` and uses only that class's public
@@ -15,6 +15,7 @@ from pathlib import Path
 import param
 
 import core
+from core import defaults
 from core.choice_build import make_choice, rule_of
 from core.errors import CurvewrightError
 from core.table import unit_of
@@ -36,6 +37,28 @@ class PageActions:
             s.degree = rec.degree
             s.log_lambda = LOG_LAMBDA_OFF if rec.lam == 0 else max(LOG_LAMBDA_OFF + 0.01, math.log10(rec.lam))
         self.status = f"Jumped to the {rule} recommendation: degree {rec.degree}, lambda {rec.lam:.3g}."
+
+    def bootstrap_band(self, B: int = 200) -> None:
+        """Percentile prediction band from B bootstrap refits for the current setting."""
+        if not self.has_rows or self.engine is None:
+            self.status = "The bootstrap needs the rows."
+            return
+        from core.uncertainty import bootstrap_band
+
+        e = self.engine
+        d, lam = self.setting()
+        x, y, w = self.training_rows()
+        self.busy = True
+        try:
+            _, lo, hi = bootstrap_band(x, y, d, lam, self._rows.grid, B=B, seed=self.session.seed, weights=w,
+                                       penalty=e.penalty, mix=e.mix)
+            self._boot = ((d, lam, e.penalty, e.mix), (lo, hi))
+            self.status = f"Bootstrap prediction band from {B} refits (95%, percentile, resampled rows)."
+        except CurvewrightError as exc:
+            self.status = f"Bootstrap: {exc}"
+        finally:
+            self.busy = False
+        self.refresh()
 
     def compute_bias_variance(self) -> None:
         """Expected-error split at the current setting, simulated from the fitted curve (``bias_var``)."""
@@ -77,7 +100,8 @@ class PageActions:
         s = self.session
         self.busy = True
         try:
-            self.learning = core.size_curve(x, y, d, lam if quadratic else 0.0, folds=e.plan.k, repeats=2,
+            k = e.plan.k if e.plan.scheme != "loo" else defaults.FOLDS      # subsets need whole folds
+            self.learning = core.size_curve(x, y, d, lam if quadratic else 0.0, folds=k, repeats=2,
                                             seed=s.seed, weights=w, test_fraction=s.test_fraction,
                                             intercept=e.intercept, penalty=e.penalty if quadratic else "ridge",
                                             domain=e.domain)
@@ -102,6 +126,12 @@ class PageActions:
 
     def choice(self, notes: str = ""):
         """The choice document for the current setting (same format as the command line)."""
+        args, kwargs = self.choice_inputs(notes)
+        return make_choice(*args, **kwargs)
+
+    def choice_inputs(self, notes: str = "") -> tuple[tuple, dict]:
+        """The arguments of ``core.choice_build.make_choice`` for the current setting: plain values, so the
+        choice can be built away from the page's thread."""
         t = self.table
         d, lam = self.setting()
         rule = rule_of(self.surface, d, lam)
@@ -110,15 +140,18 @@ class PageActions:
             data = {"file": m.get("file"), "file_sha256": None, "columns_sha256": m.get("columns_sha256", ""),
                     "rows_dropped": [], "x_column": m.get("x_column") or "x", "y_column": m.get("y_column") or "y",
                     "x_unit": unit_of(m.get("x_column") or ""), "y_unit": unit_of(m.get("y_column") or "")}
-            return make_choice(None, None, self.surface, d, lam, rule=rule, data=data, notes=notes,
-                               version=core.__version__)
+            return (None, None, self.surface, d, lam), dict(rule=rule, data=data, notes=notes,
+                                                            version=core.__version__)
         x, y, w = self.plan_rows()
+        keep = self.plan_keep()
         data = {"file": self.display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,
                 "rows_dropped": list(map(int, t.rows_dropped)), "x_column": t.x.name, "y_column": t.y.name,
                 "x_unit": t.x.unit, "y_unit": t.y.unit, "excluded_rows": list(t.excluded_rows)}
-        return make_choice(x, y, self.surface, d, lam, rule=rule, data=data, weights=w,
-                           weight_column=t.weight_column, weight_kind=t.weight_kind, notes=notes,
-                           version=core.__version__, groups_from=t.group_column)
+        return (x, y, self.surface, d, lam), dict(
+            rule=rule, data=data, weights=w, weight_column=t.weight_column, weight_kind=t.weight_kind, notes=notes,
+            version=core.__version__, groups_from=t.group_column, folds_given_by=t.fold_column,
+            groups=None if t.groups is None else t.groups[keep], transforms=t.transforms,
+            x_raw=None if t.raw_x is None else t.raw_x[keep])
 
     def save_beside(self, notes: str = "") -> Path | None:
         """Save the choice next to the data file it was made from (not for uploads)."""

@@ -22,8 +22,10 @@ def build_page(path=None, stats=None):
     so the page's progress bar can follow it.
     """
     big = path is not None and stats is None and should_stream(path)
-    model = PageModel(Session(), None if (stats or big) else (path or SAMPLE), stats=stats)
-    page = Workspace(model).panel()
+    model = PageModel(Session(), stats=stats)
+    page = Workspace(model).panel()       # the page exists first, so slow work can run beside it
+    if not (stats or big):
+        model.load_path(path or SAMPLE)
     if big:
         model.status = f"Streaming {Path(path).name} into the statistics..."
         doc = pn.state.curdoc

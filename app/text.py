@@ -40,3 +40,28 @@ def learning_reading(lc) -> str:
         parts.append("Both errors have flattened: more rows of the same kind will change little. If the error "
                      "is still too large for the job, the setting is too stiff for the trend.")
     return " ".join(parts) + " (A reading of the plot, not a test.)"
+
+
+WEIGHT_MEANINGS = {
+    "relative": "Relative weights: a row of weight 2 counts as much as two rows of weight 1. Bands assume "
+                "a reading of average weight.",
+    "uncertainty": "Standard uncertainties u of each y, in y's units: weights 1/u², and the bands use the "
+                   "stated u as given.",
+}
+NO_WEIGHTS = "No weights: every row counts the same."
+
+GUIDE = """**First time here?** Four steps.
+
+1. **Load** a CSV, TSV, Excel or Parquet file under *Data* (the invented furnace set is open now). The
+   page proposes x and y from the column names; change them and the page follows at once.
+2. **Move** *Degree* and *lambda*: the curve, the residuals and the cross-validation (CV) error follow.
+   lambda = 0 (the slider's left end) is plain least squares; a larger lambda smooths the curve.
+3. **Compare** with the two suggestions. *Lowest CV error* is the setting that predicted left-out rows
+   best. *Simplest within one SE* is the stiffest setting whose CV error is no worse than the lowest by
+   more than one standard error: as good as far as the data can tell, and less likely to follow noise.
+   The check beside each suggestion says if its residuals still show a trend.
+4. **Keep** the curve: reveal the sealed rows once you have chosen, then export the choice file, or read
+   x back from new readings under *Use the curve* (marked on the curve plot).
+
+The yellow **caution** stays on screen because a curve from this page may end up in a decision about
+safety: the page helps judge a fit; the codes, standards and qualified people of your field decide."""
