@@ -96,7 +96,7 @@ def readback_md(m) -> str:
         return "*Working out the curve's uncertainty…*" if m.uses_pending else \
             "Read-back needs the rows of a data file and a curve with a band."
     if not m.readback:
-        return "Paste readings above: one per line, or the replicates of one unknown on one line."
+        return "Read-back: paste readings under *Use the curve* (one per line, or the replicates of one unknown on one line)."
     cov = 95
     lines = [f"| reading | n | x estimate | x low | x high | standard uncertainty of x | interval ({cov}%) |",
              "|---:|---:|---:|---:|---:|---:|---|"]
@@ -121,7 +121,7 @@ def tolerance_md(m) -> str:
         return f"**Could not check:** {plain(m.tolerance_problem)}"
     tc = m.tolerance_result
     if tc is None:
-        return "Set a tolerance above 0 to check the curve against it."
+        return "Tolerance check: set a tolerance above 0 under *Use the curve*."
     tol = f"{100 * tc['tolerance']:g}% of the prediction" if tc["relative"] else f"{tc['tolerance']:g} (y units)"
     lines = [f"**{tc['overall'].upper()}**: {tc['passed']} rows pass, {tc['failed']} fail; tolerance {tol}; "
              f"rows checked: {tc['rows_checked']}.", "", f"Rule: {plain(tc['rule_text'])}."]

@@ -93,7 +93,8 @@ class Workspace(param.Parameterized):
             w.param.watch(self._on_settle, "value_throttled")
         self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds", **sw)
         self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", **sw)
-        self.repeats = pn.widgets.IntInput.from_param(s.param.repeats, label="Repeats", **sw)
+        self.repeats = pn.widgets.IntInput.from_param(s.param.repeats, label="Repeats", css_classes=["cw-repeats"],
+                                                    **sw)
         self.loo = pn.widgets.Checkbox.from_param(s.param.loo, label="Leave-one-out instead of folds", **sw)
         self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction", **sw)
         self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", **sw)
@@ -107,16 +108,17 @@ class Workspace(param.Parameterized):
                         (self.gcol, "group_column"), (self.fcol, "fold_column")):
             w.param.watch(lambda e, n=name: self._set_column(n, e.new), "value")
         self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="Weights column holds", **sw)
-        self.xt = pn.widgets.Select.from_param(s.param.x_transform, label="x transform", **sw)
+        self.xt = pn.widgets.Select.from_param(s.param.x_transform, label="x transform", css_classes=["cw-xt"], **sw)
         self.yt = pn.widgets.Select.from_param(s.param.y_transform, label="y transform", **sw)
         self.origin = pn.widgets.Checkbox.from_param(s.param.through_origin, label="Through (0, 0): no constant term",
-                                                     **sw)
+                                                     css_classes=["cw-origin"], **sw)
         self.rec_min = pn.widgets.Button(label="Suggest: lowest CV error", color="primary", **sw)
         self.rec_1se = pn.widgets.Button(label="Suggest: simplest within one SE", color="primary", **sw)
         self.rec_min.on_click(lambda e: self._safe(lambda: m.recommend("lowest")))
         self.rec_1se.on_click(lambda e: self._safe(lambda: m.recommend("simplest")))
         self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning", **sw)
-        self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False)
+        self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False,
+                                           css_classes=["cw-confirm"])
         self.confirm_btn = pn.widgets.Button(label="Confirm reveal", color="danger", visible=False)
         self.reveal.on_click(self._ask_reveal)
         self.confirm_btn.on_click(self._do_reveal)
@@ -127,7 +129,7 @@ class Workspace(param.Parameterized):
                                               label="Download report (HTML)", color="default", **sw)
         self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default", **sw)
         self.save_beside.on_click(lambda e: m.save_beside(self.notes.value or ""))
-        self.penalty = pn.widgets.Select.from_param(s.param.penalty, label="Penalty", **sw)
+        self.penalty = pn.widgets.Select.from_param(s.param.penalty, label="Penalty", css_classes=["cw-penalty"], **sw)
         self.mix = pn.widgets.FloatSlider.from_param(s.param.mix, label="Elastic-net L1 share", **sw)
         self.exclude = pn.widgets.TextInput.from_param(s.param.exclude, label="Exclude rows (recorded)",
                                                        placeholder="e.g. 11, 33", **sw)
