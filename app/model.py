@@ -193,6 +193,8 @@ class PageModel(PageActions, PageUses, param.Parameterized):
                               y_transform=s.y_transform)
         except CurvewrightError as exc:
             self.status = f"Could not use those columns: {exc}"
+            if self.table is not None:
+                self._sync_session(self.table)    # the controls show what is in use again
             return
         self._adopt(table)
 
@@ -243,6 +245,21 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         self._commit(Rows.none(engine.domain), engine, surface, None)
         return True
 
+    def _sync_session(self, table) -> None:
+        """The session's column, weights and transform fields as ``table`` was read (no re-read)."""
+        s = self.session
+        self._adopting = True
+        try:
+            with param.parameterized.batch_call_watchers(s):
+                s.x_column, s.y_column = table.x.name, table.y.name
+                s.weight_column = table.weight_column or ""
+                if table.weight_kind:
+                    s.weight_kind = table.weight_kind
+                s.group_column, s.fold_column = table.group_column or "", table.fold_column or ""
+                s.x_transform, s.y_transform = table.transforms
+        finally:
+            self._adopting = False
+
     def _adopt(self, full, source=None, note: str = "") -> bool:
         """Use a newly read table (``source``: its path, name and columns, for a new file)."""
         table, problem = apply_exclusion(full, self.session.exclude)
@@ -254,22 +271,10 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         if source is not None:
             self.source_path, self.display_name, self.columns = source
         self._full_table, self.table, self.stats_meta = full, table, None
-        s = self.session
-        self._adopting = True
-        try:
-            with param.parameterized.batch_call_watchers(s):
-                s.x_column, s.y_column = table.x.name, table.y.name
-                s.weight_column = table.weight_column or ""
-                if table.weight_kind:
-                    s.weight_kind = table.weight_kind
-                s.group_column, s.fold_column = table.group_column or "", table.fold_column or ""
-        finally:
-            self._adopting = False
-        self.status = " ".join(t for t in (loaded_text(self.display_name, table), note) if t)
-        if notes:
-            self.status = notes[0]
-        if problem:
-            self.status = problem
+        self._sync_session(table)
+        # what was loaded stays in view: a proposal and a numerical note are added to it, not put in its place
+        self.status = problem or " ".join(t for t in (loaded_text(self.display_name, table), note,
+                                                      f"Note: {notes[0]}" if notes else "") if t)
         self._commit(*built)
         return True
 

@@ -153,9 +153,22 @@ class Workspace(param.Parameterized):
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
         m.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
         s.param.watch(self._show_weight_meaning, ["weight_kind", "weight_column"])
+        s.param.watch(self._sync_selects, ["x_column", "y_column", "weight_column", "group_column", "fold_column"])
         s.param.watch(lambda e: setattr(self.mix, "visible", e.new == "elastic"), "penalty")
         self.mix.visible = s.penalty == "elastic"
         self._show_weight_meaning()
+
+    def _sync_selects(self, *_):
+        """Column selects follow the session (the model may set or restore them)."""
+        s = self.model.session
+        self._syncing = True
+        try:
+            for w, val in ((self.xcol, s.x_column), (self.ycol, s.y_column), (self.wcol, s.weight_column),
+                           (self.gcol, s.group_column), (self.fcol, s.fold_column)):
+                if val in w.options and w.value != val:
+                    w.value = val
+        finally:
+            self._syncing = False
 
     def _set_column(self, name, value):
         s = self.model.session
