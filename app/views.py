@@ -27,8 +27,10 @@ from .text import NO_WEIGHTS, WEIGHT_MEANINGS, learning_reading
 
 _plain = plain      # the name the tests and the report know
 
-# the lambda slider shows lambda itself, and exactly "0" at its left end (never the position -9)
-LAMBDA_FORMAT = CustomJSTickFormatter(code=f"""
+def lambda_format():
+    """The lambda slider's label formatter: lambda itself, and exactly "0" at the left end (never the
+    position -9). A new one per page: a Bokeh model belongs to one document."""
+    return CustomJSTickFormatter(code=f"""
     if (tick <= {LOG_LAMBDA_OFF} + 1e-9) return "0";
     const v = Math.pow(10, tick);
     return (v >= 1e-3 && v < 1e4) ? String(Number(v.toPrecision(2))) : v.toExponential(1);""")
@@ -82,7 +84,7 @@ class Workspace(param.Parameterized):
         m, s = self.model, self.model.session
         sw = {"sizing_mode": "stretch_width"}
         self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", css_classes=["cw-degree"], **sw)
-        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="lambda", format=LAMBDA_FORMAT,
+        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="lambda", format=lambda_format(),
                                                      css_classes=["cw-lambda"], **sw)
         # the training fraction rebuilds the statistics: it applies once the slider is released
         p = s.param.train_fraction
