@@ -25,6 +25,8 @@ from .text import LEARNING_NEEDS_ROWS, LEARNING_UNPENALIZED
 
 __all__ = ["PageActions"]
 
+LEARNING_IN_BACKGROUND = 20_000     # rows from which the learning curve is computed away from the page's thread
+
 
 class PageActions:
     """What the page's buttons do (see module docstring)."""
@@ -98,19 +100,33 @@ class PageActions:
         quadratic = e.penalty in ("ridge", "curvature")
         x, y, w = self.plan_rows()
         s = self.session
-        self.busy = True
-        try:
-            k = e.plan.k if e.plan.scheme != "loo" else defaults.FOLDS      # subsets need whole folds
-            self.learning = core.size_curve(x, y, d, lam if quadratic else 0.0, folds=k, repeats=2,
-                                            seed=s.seed, weights=w, test_fraction=s.test_fraction,
-                                            intercept=e.intercept, penalty=e.penalty if quadratic else "ridge",
-                                            domain=e.domain)
-            self.learning_note = "" if quadratic else LEARNING_UNPENALIZED
-        except CurvewrightError as exc:
-            self.learning, self.learning_note = None, f"No learning curve for this setting: {exc}"
-        finally:
+        k = e.plan.k if e.plan.scheme != "loo" else defaults.FOLDS      # subsets need whole folds
+        key = (self.data_version, d, lam, e.penalty)
+        self._learning_key = key
+
+        def work():
+            try:
+                return core.size_curve(x, y, d, lam if quadratic else 0.0, folds=k, repeats=2, seed=s.seed,
+                                       weights=w, test_fraction=s.test_fraction, intercept=e.intercept,
+                                       penalty=e.penalty if quadratic else "ridge", domain=e.domain)
+            except CurvewrightError as exc:
+                return exc
+
+        def done(result):
+            if key != self._learning_key:        # a newer setting was asked for meanwhile
+                return
             self.busy = False
-        self.version += 1
+            if isinstance(result, CurvewrightError):
+                self.learning, self.learning_note = None, f"No learning curve for this setting: {result}"
+            else:
+                self.learning, self.learning_note = result, "" if quadratic else LEARNING_UNPENALIZED
+            self.version += 1
+
+        self.busy = True
+        if self.background is None or x.size < LEARNING_IN_BACKGROUND:
+            done(work())
+        else:
+            self.background(work, done)       # about 0.1 s per 100 000 rows: off the page's thread
 
     def reveal_test(self) -> float | None:
         """Score the sealed test set for the current setting (recorded in the export)."""
