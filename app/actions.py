@@ -62,6 +62,22 @@ class PageActions:
             self.busy = False
         self.refresh()
 
+    def check_suggestions(self) -> None:
+        """The residual checks of both suggestions and which to prefer (``core.checks``), on the rows in the
+        fit (statistics alone: the shift from least squares only); kept in ``suggestion_checks``."""
+        from core.checks import advice, check_recommendations
+
+        if self.surface is None:
+            self.suggestion_checks = ({}, "")
+            return
+        x, y, w = self.training_rows() if self.has_rows else (None, None, None)
+        try:
+            checks = check_recommendations(self.surface, x, y, w)
+        except CurvewrightError as exc:
+            self.suggestion_checks = ({}, f"The suggestions could not be checked: {exc}")
+            return
+        self.suggestion_checks = (checks, advice(checks))
+
     def compute_bias_variance(self) -> None:
         """Expected-error split at the current setting, simulated from the fitted curve (``bias_var``)."""
         if not self.has_rows or self.engine is None:

@@ -38,7 +38,7 @@ def page_layout(ws):
                  pn.Row(ws.wcol, ws.wkind, sizing_mode="stretch_width"), ws.weight_meaning,
                  pn.Row(ws.gcol, ws.fcol, sizing_mode="stretch_width"), ws.exclude),
         _section("Flexibility", ws.degree, ws.lam, ws.penalty, ws.mix, ws.origin,
-                 ws.rec_min, ws.rec_1se),
+                 ws.rec_min, ws.rec_1se, ws.suggestions),
         _section("Validation", pn.Row(ws.folds, ws.repeats, ws.seed, sizing_mode="stretch_width"), ws.loo,
                  ws.frac, ws.test),
         _section("Use the curve", ws.readings, ws.replicates, ws.tolerance, ws.tol_rel, ws.tol_rule),

@@ -62,6 +62,7 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         self.surface = None
         self.learning = None
         self.learning_note = ""       # why the learning curve is missing or differs from the setting
+        self.suggestion_checks: tuple[dict, str] = ({}, "")     # ({rule: PickCheck}, which to prefer)
         self.bias_var = None
         self.out: dict = {}
         self._full_table = None       # before exclusions
@@ -307,6 +308,7 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         self._rows, self.engine, self.surface, self._loo = rows, engine, surface, loo
         self.learning = None
         self._boot = None
+        self.check_suggestions()
         self.data_version += 1
         s = self.session
         s.param.degree.bounds = (0, engine.max_degree)
@@ -359,6 +361,7 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         finally:
             self.busy = False
         self.engine, self.surface = engine, surface
+        self.check_suggestions()
         self.data_version += 1
         self.refresh()
         self.settle()

@@ -13,7 +13,7 @@ import numpy as np
 from .fmt import lam_text, number, with_se
 from .uses import INTERVAL_WORDS
 
-__all__ = ["plain", "numbers_md", "rows_md", "readback_md", "tolerance_md", "calibration_md"]
+__all__ = ["plain", "suggestions_md", "numbers_md", "rows_md", "readback_md", "tolerance_md", "calibration_md"]
 
 
 def plain(text: str) -> str:
@@ -25,6 +25,26 @@ def plain(text: str) -> str:
 def _rows(rows, limit=20) -> str:
     rows = [int(r) for r in rows]
     return ", ".join(map(str, rows[:limit])) + (f" … ({len(rows) - limit} more)" if len(rows) > limit else "")
+
+
+RULE_NAMES = {"lowest": "Lowest CV error", "simplest": "Simplest within one SE"}
+
+
+def suggestions_md(m) -> str:
+    """Each suggestion with its setting and what the residual checks found, then which to prefer."""
+    if m.surface is None:
+        return ""
+    checks, prefer = m.suggestion_checks
+    lines = []
+    for rule, rec in m.surface.recommended.items():
+        c = checks.get(rule)
+        verdict = {True: "passes", False: "fails", None: "not checked"}[c.passed] if c is not None else "not checked"
+        why = f" ({'; '.join(c.reasons)})" if c is not None and c.passed is False else ""
+        lines.append(f"- **{RULE_NAMES.get(rule, rule)}**: degree {rec.degree}, lambda {lam_text(rec.lam)}; "
+                     f"residual checks: {verdict}{plain(why)}")
+    if prefer:
+        lines.append(f"\n{plain(prefer)}")
+    return "\n".join(lines)
 
 
 def numbers_md(m) -> str:

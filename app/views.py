@@ -21,7 +21,8 @@ from core.errors import CurvewrightError
 from . import plots
 from .model import PageModel
 from .names import download_name
-from .panels import (calibration_md, numbers_md, plain, readback_glyphs, readback_md, rows_md, tolerance_md)
+from .panels import (calibration_md, numbers_md, plain, readback_glyphs, readback_md, rows_md, suggestions_md,
+                     tolerance_md)
 from .session import LOG_LAMBDA_OFF
 from .text import NO_WEIGHTS, WEIGHT_MEANINGS, learning_reading
 
@@ -66,6 +67,8 @@ class Workspace(param.Parameterized):
         self.rb_text = pn.pane.Markdown("", sizing_mode="stretch_width", css_classes=["cw-readback"])
         self.tol_text = pn.pane.Markdown("", sizing_mode="stretch_width", css_classes=["cw-tolerance"])
         self.weight_meaning = pn.pane.Markdown("", sizing_mode="stretch_width", margin=(0, 10))
+        self.suggestions = pn.pane.Markdown("", sizing_mode="stretch_width", margin=(0, 10),
+                                            css_classes=["cw-suggestions"])
         self._doc, self._thread = pn.state.curdoc, threading.get_ident()
         self._syncing = False
         self._build_widgets()
@@ -293,6 +296,7 @@ class Workspace(param.Parameterized):
         finally:
             self._syncing = False
         self.rows_text.object = rows_md(m)
+        self.suggestions.object = suggestions_md(m)
 
     def _on_version(self, *_):
         # Button events arrive outside the document lock; ``unlocked`` sends the

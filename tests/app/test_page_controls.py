@@ -83,3 +83,21 @@ def test_read_back_and_tolerance_use_the_exported_curve():
     train = ~m.engine.plan.test_mask
     want = core.tolerance_check(c, t.x.values[train], t.y.values[train], 0.01)
     assert m.tolerance_result["passed"] == want["passed"] and m.tolerance_result["failed"] == want["failed"]
+
+
+def test_suggestions_carry_their_residual_checks():
+    """Beside each suggestion the page shows core.checks' verdict for it (runs test of Wald & Wolfowitz 1940
+    and the shift from least squares, tested in tests/core) and which one to prefer."""
+    from core.checks import advice, check_recommendations
+    from app.panels import suggestions_md
+
+    s = Session()
+    m = PageModel(s, SAMPLES / "furnace_yield.csv")
+    x, y, w = m.training_rows()
+    ref = check_recommendations(m.surface, x, y, w)
+    checks, prefer = m.suggestion_checks
+    assert {k: c.passed for k, c in checks.items()} == {k: c.passed for k, c in ref.items()}
+    assert prefer == advice(ref)
+    text = suggestions_md(m)
+    rec = m.surface.recommended["simplest"]
+    assert f"degree {rec.degree}" in text and "residual checks:" in text
