@@ -52,7 +52,7 @@ NO_WEIGHTS = "No weights: every row counts the same."
 
 GUIDE = """**First time here?** Four steps.
 
-1. **Load** a CSV, TSV, Excel or Parquet file under *Data* (the invented furnace set is open now). The
+1. **Load** a CSV, TSV, Excel or Parquet file under *Data* (an invented sample set is open now). The
    page proposes x and y from the column names; change them and the page follows at once.
 2. **Move** *Degree* and *lambda*: the curve, the residuals and the cross-validation (CV) error follow.
    lambda = 0 (the slider's left end) is plain least squares; a larger lambda smooths the curve.

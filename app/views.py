@@ -96,12 +96,14 @@ class Workspace(param.Parameterized):
         self.frac.param.watch(lambda e: setattr(s, "train_fraction", e.new), "value_throttled")
         for w in (self.degree, self.lam):
             w.param.watch(self._on_settle, "value_throttled")
-        self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds", **sw)
+        self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds", css_classes=["cw-folds"], **sw)
         self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", **sw)
         self.repeats = pn.widgets.IntInput.from_param(s.param.repeats, label="Repeats", css_classes=["cw-repeats"],
                                                     **sw)
-        self.loo = pn.widgets.Checkbox.from_param(s.param.loo, label="Leave-one-out instead of folds", **sw)
-        self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction", **sw)
+        self.loo = pn.widgets.Checkbox.from_param(s.param.loo, label="Leave-one-out instead of folds", css_classes=["cw-loo"],
+                                                  **sw)
+        self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction",
+                                                      css_classes=["cw-sealed"], **sw)
         self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", **sw)
         self.upload.param.watch(self._on_upload, "value")
         self.xcol = pn.widgets.Select(name="x column", css_classes=["cw-xcol"], **sw)
@@ -112,7 +114,8 @@ class Workspace(param.Parameterized):
         for w, name in ((self.xcol, "x_column"), (self.ycol, "y_column"), (self.wcol, "weight_column"),
                         (self.gcol, "group_column"), (self.fcol, "fold_column")):
             w.param.watch(lambda e, n=name: self._set_column(n, e.new), "value")
-        self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="Weights column holds", **sw)
+        self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="Weights column holds",
+                                                   css_classes=["cw-wkind"], **sw)
         self.xt = pn.widgets.Select.from_param(s.param.x_transform, label="x transform", css_classes=["cw-xt"], **sw)
         self.yt = pn.widgets.Select.from_param(s.param.y_transform, label="y transform", **sw)
         self.origin = pn.widgets.Checkbox.from_param(s.param.through_origin, label="Through (0, 0): no constant term",
@@ -135,7 +138,8 @@ class Workspace(param.Parameterized):
         self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default", **sw)
         self.save_beside.on_click(lambda e: m.save_beside(self.notes.value or ""))
         self.penalty = pn.widgets.Select.from_param(s.param.penalty, label="Penalty", css_classes=["cw-penalty"], **sw)
-        self.mix = pn.widgets.FloatSlider.from_param(s.param.mix, label="Elastic-net L1 share", **sw)
+        self.mix = pn.widgets.FloatSlider.from_param(s.param.mix, label="Elastic-net L1 share", css_classes=["cw-mix"],
+                                                     **sw)
         self.exclude = pn.widgets.TextInput.from_param(s.param.exclude, label="Exclude rows (recorded)",
                                                        placeholder="e.g. 11, 33", **sw)
         self.boot = pn.widgets.Button(label="Bootstrap band", color="default", **sw)

@@ -229,3 +229,61 @@ def test_two_pages_keep_their_own_inputs(workbench, context, app_url):
     first.wait_for_timeout(1500)
     assert second.evaluate(marks) == 0
     assert second.locator(".cw-xt select").input_value() == "none"
+
+
+SAMPLES = DOCS.parent / "sample_sets"
+
+
+def _upload(page, path):
+    page.locator("input[type=file]").set_input_files(str(path))
+    page.get_by_text(f"Loaded {path.name}").first.wait_for(timeout=20000)
+    _settled(page)
+
+
+def test_more_controls_round_trip_into_the_choice(workbench, tmp_path):
+    """Weights kind, leave-one-out, the fold column, the group column and the elastic-net share, set in the
+    browser, are the downloaded choice's fields."""
+    page = workbench
+    _upload(page, SAMPLES / "assay_calibration.csv")
+    _, doc = _download_choice(page, tmp_path)
+    assert doc["model"]["weighting"] == {"column": "u_signal [AU]", "kind": "uncertainty"}
+    page.locator(".cw-wkind select").select_option("relative")
+    page.wait_for_timeout(1500)
+    _settled(page)
+    _, doc = _download_choice(page, tmp_path)
+    assert doc["model"]["weighting"]["kind"] == "relative"
+    page.locator(".cw-loo input").check()
+    page.wait_for_timeout(2000)
+    _settled(page)
+    _, doc = _download_choice(page, tmp_path)
+    assert doc["validation"]["scheme"] == "loo"
+
+    _upload(page, SAMPLES / "beam_deflection.csv")
+    page.locator(".cw-loo input").uncheck()
+    page.locator(".cw-sealed [role=slider]").focus()
+    page.keyboard.press("Home")                      # no sealed rows: three runs are few groups
+    page.wait_for_timeout(1500)
+    folds = page.locator(".cw-folds input")
+    folds.fill("3")
+    folds.press("Enter")
+    page.wait_for_timeout(1000)
+    page.locator(".cw-fcol select").select_option("run")
+    page.wait_for_timeout(1500)
+    _settled(page)
+    _, doc = _download_choice(page, tmp_path)
+    assert doc["validation"]["folds_given_by"] == "run" and doc["validation"]["scheme"] == "explicit"
+    page.locator(".cw-fcol select").select_option("")
+    page.wait_for_timeout(1000)
+    page.locator(".cw-gcol select").select_option("run")
+    page.wait_for_timeout(1500)
+    page.locator(".cw-penalty select").select_option("elastic")
+    page.get_by_text("Elastic-net L1 share").wait_for(timeout=20000)
+    handle = page.locator(".cw-mix [role=slider]")
+    handle.focus()
+    page.keyboard.press("End")
+    wait_for(lambda: handle.get_attribute("aria-valuenow") == "1.0", what="the L1 share at 1")
+    page.wait_for_timeout(6000)             # the elastic net's surface takes a few seconds on 48 rows
+    _settled(page)
+    _, doc = _download_choice(page, tmp_path)
+    assert doc["validation"]["groups_from"] == "run" and doc["validation"]["scheme"] == "group"
+    assert doc["model"]["penalty"] == "elastic" and doc["model"]["mix"] == 1.0
