@@ -63,4 +63,7 @@ def page_words(text: str, temp_names: dict | None = None) -> str:
         label = CONTROL_NAMES.get(name, name.replace("-", " "))
         return f"Setting '{label}'" if m.group("opt") else f"'{label}'"
     text = _OPTION.sub(repl, text)
-    return text.replace("pass Setting", "use").replace("pass '", "use '")
+    text = text.replace("pass Setting", "use").replace("pass '", "use '")
+    if "distinct groups for" in text and "sealed" not in text:
+        text += " The sealed test takes whole groups: with few groups, lower the sealed-test fraction too."
+    return text

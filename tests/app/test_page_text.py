@@ -75,6 +75,13 @@ def test_messages_in_page_words():
     assert got.startswith("Setting 'y transform': expected") and "File 'bench run.csv' row 3" in got
 
 
+def test_few_groups_message_points_at_the_sealed_fraction():
+    """With few groups the sealed test can leave too few for the folds: the message names that control too."""
+    got = page_words("Group column: expected at least 2 distinct groups for 2 folds, got 1 groups. "
+                     "Use fewer folds or ungrouped folds.")
+    assert got.endswith("lower the sealed-test fraction too.")
+
+
 def test_pasted_readings():
     """One reading per line; several on a line are replicates of one unknown (their mean and count)."""
     y, n = parse_readings("0.2\n\n0.30, 0.31\t0.29\n")
