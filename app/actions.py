@@ -20,6 +20,7 @@ from core.choice_build import make_choice, rule_of
 from core.errors import CurvewrightError
 from core.table import unit_of
 
+from .names import download_name
 from .session import LOG_LAMBDA_OFF
 from .text import LEARNING_NEEDS_ROWS, LEARNING_UNPENALIZED
 
@@ -185,13 +186,23 @@ class PageActions:
             groups=None if t.groups is None else t.groups[keep], transforms=t.transforms,
             x_raw=None if t.raw_x is None else t.raw_x[keep])
 
+    def file_name(self, kind: str, ext: str) -> str:
+        """The name of a file written from the page: the data file's stem and the configuration
+        (``app.names.download_name``)."""
+        if self.engine is None:
+            return f"curve_{kind}.{ext}"
+        d, lam = self.setting()
+        return download_name(self.display_name, d, lam, kind, ext, penalty=self.engine.penalty,
+                             through_origin=not self.engine.intercept,
+                             transforms=self.table.transforms if self.table is not None else ("none", "none"))
+
     def save_beside(self, notes: str = "") -> Path | None:
         """Save the choice next to the data file it was made from (not for uploads)."""
         src = self.source_path
         if not src or self.display_name != Path(src).name:
             self.status = "Only a file opened from disk can be saved beside; use Export for uploads."
             return None
-        target = Path(src).with_name(Path(src).stem + "_choice.json")
+        target = Path(src).with_name(self.file_name("choice", "json"))
         try:
             self.choice(notes).save(target)
         except CurvewrightError as exc:

@@ -20,7 +20,6 @@ from core.errors import CurvewrightError
 
 from . import plots
 from .model import PageModel
-from .names import download_name
 from .panels import (calibration_md, numbers_md, plain, readback_glyphs, readback_md, rows_md, suggestions_md,
                      tolerance_md)
 from .session import LOG_LAMBDA_OFF
@@ -244,14 +243,7 @@ class Workspace(param.Parameterized):
         self.confirm.value = False
 
     def _names(self):
-        m, s = self.model, self.model.session
-        if m.engine is None:
-            return "curve_choice.json", "curve_report.html"
-        d, lam = m.setting()
-        kw = {"penalty": m.engine.penalty, "through_origin": not m.engine.intercept,
-              "transforms": m.table.transforms if m.table is not None else ("none", "none")}
-        return (download_name(m.display_name, d, lam, "choice", "json", **kw),
-                download_name(m.display_name, d, lam, "report", "html", **kw))
+        return self.model.file_name("choice", "json"), self.model.file_name("report", "html")
 
     def _export(self):
         try:

@@ -101,3 +101,15 @@ def test_suggestions_carry_their_residual_checks():
     text = suggestions_md(m)
     rec = m.surface.recommended["simplest"]
     assert f"degree {rec.degree}" in text and "residual checks:" in text
+
+
+def test_save_beside_is_named_after_file_and_configuration(tmp_path):
+    """The choice saved next to the data file carries the same name as the download."""
+    import shutil
+
+    src = tmp_path / "beam_deflection.csv"
+    shutil.copy(SAMPLES / "beam_deflection.csv", src)
+    s = Session(log_lambda=-2.0, degree=2)
+    m = PageModel(s, src)
+    target = m.save_beside()
+    assert target.name == "beam_deflection_deg2_lam1e-2_choice.json" and target.is_file()
