@@ -127,7 +127,7 @@ def readback_md(m) -> str:
         if "solutions" in r:
             lines.append(f"| | | solutions: {', '.join(number(v, 5) for v in r['solutions'])} | | | | |")
     lo, hi = m.use_choice.x_range
-    lines.append("\nOn the curve plot: a dashed orange line at each reading, a thick orange bar over its x interval "
+    lines.append("\nOn the curve plot: a dashed blue line at each reading, a thick blue bar over its x interval "
                  "and a cross at the estimate.")
     lines.append(f"\nCalibrated x range [{number(lo, 6)}, {number(hi, 6)}]; band: {plain(m.use_choice.band_label())}.")
     if m.use_choice.transforms[1].name == "log":

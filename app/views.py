@@ -36,14 +36,17 @@ def lambda_format():
     return (v >= 1e-3 && v < 1e4) ? String(Number(v.toPrecision(2))) : v.toExponential(1);""")
 
 
+READBACK = "#3b6fb6"     # read-back marks: a colour no other mark of the page uses
+
+
 def readback_figure_source(fig):
     """Add the read-back marks to the fit figure (a line at each reading, its x interval, the estimate);
     returns their source (named ``readback_marks``)."""
     src = ColumnDataSource({"y": [], "x0": [], "x1": [], "lo": [], "hi": [], "x": []}, name="readback_marks")
     # no legend entries: the legend lists what is always drawn; the read-back table names these marks
-    fig.segment("x0", "y", "x1", "y", source=src, color=plots.ASIDE, line_dash="dashed", line_width=1.5)
-    fig.segment("lo", "y", "hi", "y", source=src, color=plots.ASIDE, line_width=6, alpha=0.6)
-    fig.scatter("x", "y", source=src, marker="x", size=12, line_width=2, color=plots.ASIDE)
+    fig.segment("x0", "y", "x1", "y", source=src, color=READBACK, line_dash="dashed", line_width=1.5)
+    fig.segment("lo", "y", "hi", "y", source=src, color=READBACK, line_width=6, alpha=0.6)
+    fig.scatter("x", "y", source=src, marker="x", size=12, line_width=2, color=READBACK)
     return src
 
 

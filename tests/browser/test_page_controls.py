@@ -194,12 +194,17 @@ DOCS = __import__("pathlib").Path(__file__).resolve().parents[2] / "docs"
 
 def test_readme_screenshot_after_a_fit(workbench):
     """docs/workbench.png: the page on the bundled invented sample at 1280 x 800 after taking the simplest
-    suggestion, guide dismissed (the README shows it)."""
+    suggestion and reading two invented readings back, guide dismissed (the README shows it)."""
     page = workbench
     page.set_viewport_size({"width": 1280, "height": 800})
     page.get_by_role("button", name="Got it, hide this guide").click()
     page.get_by_role("button", name="Suggest: simplest within one SE").click()
     page.get_by_text("Jumped to the simplest recommendation").wait_for(timeout=15000)
+    box = page.locator(".cw-readings textarea")
+    box.fill("60\n71 72 70")
+    box.blur()
+    marks = "() => Bokeh.documents[0].get_model_by_name('readback_marks').data.y.length"
+    wait_for(lambda: page.evaluate(marks) == 2, what="the read-back marks")
     _settled(page)
     page.evaluate("() => { window.scrollTo(0, 0); document.querySelectorAll('*').forEach(e => { e.scrollTop = 0; }); }")
     page.mouse.move(5, 5)
