@@ -3,10 +3,15 @@
 ``PageModel`` watches a session's inputs and keeps what the views display: the
 loaded table (or statistics), the scoring engine and its surface, ``out`` (the
 numbers and curves of the current slider setting), the learning curve, the
-bootstrap band, the bias/variance split, the sealed-test
-reveal, and the status text (the buttons' actions are in ``app.actions``). Engines and surfaces are values: a new penalty
-builds a new engine (``with_penalty``) and surface; a reveal replaces the surface
-with the revealed one. Errors from core become the status; earlier results stay.
+suggestions' residual checks, the bootstrap band, the bias/variance split, the
+sealed-test reveal, the uses of the chosen curve (``app.usage``: read-back,
+tolerance, lack of fit and limits), and the status text (the buttons' actions are
+in ``app.actions``). A changed column, weights kind or transform re-reads the file
+at once; a new file's columns are proposed from its header names (``app.columns``).
+Engines and surfaces are values: a new penalty builds a new engine
+(``with_penalty``) and surface; a reveal replaces the surface with the revealed
+one. Errors from core become the status, in page words (``app.names``); earlier
+results stay.
 
 Imports param and core only (no UI package), so tests drive it without a browser.
 """
