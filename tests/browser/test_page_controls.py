@@ -14,6 +14,9 @@ DEEP_TEXT = """(sel) => {
     return null; };
   const el = find(document); return el ? walk(el) : '';
 }"""
+DEEP_TEXT_ALL = """() => { const walk = (n) => { let s = ''; if (n.shadowRoot) s += walk(n.shadowRoot);
+    for (const c of n.childNodes) { s += c.nodeType === 3 ? c.textContent : walk(c); } return s; };
+  return walk(document.body); }"""
 LC = "() => Array.from(Bokeh.documents[0].get_model_by_name('learning_curve').data.n)"
 
 
@@ -292,3 +295,15 @@ def test_more_controls_round_trip_into_the_choice(workbench, tmp_path):
     _, doc = _download_choice(page, tmp_path)
     assert doc["validation"]["groups_from"] == "run" and doc["validation"]["scheme"] == "group"
     assert doc["model"]["penalty"] == "elastic" and doc["model"]["mix"] == 1.0
+
+
+def test_learning_curve_follows_the_degree_slider(workbench):
+    """When the degree slider comes to rest on a new value, the learning curve is recomputed for it."""
+    page = workbench
+    wait_for(lambda: "Degree 3, lambda 0.001 (curvature penalty), 10 folds" in page.evaluate(DEEP_TEXT_ALL),
+             what="the learning curve of degree 3")
+    handle = page.locator(".cw-degree [role=slider]")
+    handle.focus()
+    page.keyboard.press("ArrowRight")
+    wait_for(lambda: "Degree 4, lambda 0.001 (curvature penalty), 10 folds" in page.evaluate(DEEP_TEXT_ALL),
+             what="the learning curve of degree 4")
