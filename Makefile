@@ -1,10 +1,11 @@
-# Two commands on a fresh machine: `make run` (the workbench on bundled sample data)
+# Two commands on a fresh machine: `make run` (the workbench on the invented assay calibration, where lack of
+# fit, stated uncertainties, detection limits and read-back all show; DATA=... opens another file)
 # and `make test`. Both create or refresh .venv from pyproject.toml first.
 PYTHON ?= python3
 VENV   := .venv
 PY     := $(VENV)/bin/python
 STAMP  := $(VENV)/.installed
-DATA   ?= sample_sets/furnace_yield.csv
+DATA   ?= sample_sets/assay_calibration.csv
 
 .PHONY: run test bench sample-sets clean
 

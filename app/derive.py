@@ -23,7 +23,7 @@ from core import defaults
 from core.errors import CurvewrightError, DataError, NumericalWarning
 from core.influence import row_influence
 
-__all__ = ["MAX_SHOWN", "Rows", "training_keep", "row_engine", "surface_for", "loo_engine", "setting_outputs"]
+__all__ = ["MAX_SHOWN", "Rows", "loaded_text", "training_keep", "row_engine", "surface_for", "loo_engine", "setting_outputs"]
 
 MAX_SHOWN = 4000              # rows drawn in scatter plots (statistics use all rows)
 LOO_MAX_ROWS = 50_000         # leave-one-out needs the rows in memory: offered up to this many
@@ -76,6 +76,22 @@ class Rows:
         return self.x[t], self.y[t], None if self.w is None else self.w[t]
 
 
+def _row_list(rows, limit: int = 12) -> str:
+    rows = [int(r) for r in rows]
+    return ", ".join(map(str, rows[:limit])) + (f" and {len(rows) - limit} more" if len(rows) > limit else "")
+
+
+def loaded_text(name: str, table) -> str:
+    """What was loaded and which rows were left out, and why (spreadsheet row numbers; header = row 1)."""
+    parts = [f"Loaded {name}: {table.n} rows in use"]
+    if table.rows_dropped:
+        parts.append(f"{len(table.rows_dropped)} skipped for a blank cell in a chosen column "
+                     f"(rows {_row_list(table.rows_dropped)})")
+    if table.excluded_rows:
+        parts.append(f"rows {_row_list(table.excluded_rows)} excluded on request")
+    return "; ".join(parts) + "."
+
+
 def training_keep(n: int, fraction: float, seed: int) -> np.ndarray:
     """Rows kept by the training fraction (a seeded draw; all rows at 1)."""
     if fraction >= 1.0:
@@ -83,20 +99,26 @@ def training_keep(n: int, fraction: float, seed: int) -> np.ndarray:
     return np.random.default_rng([seed, 23]).random(n) < fraction
 
 
-def row_engine(x, y, w, groups, *, folds: int, seed: int, repeats: int, test_fraction: float,
-               penalty: str, mix: float, row_keys=None):
-    """The engine of rows in memory.
+def row_engine(x, y, w, groups, *, folds, seed: int, repeats: int, test_fraction: float,
+               penalty: str, mix: float, row_keys=None, fold_ids=None, intercept: bool = True):
+    """The engine of rows in memory (``folds`` a number or "loo"; ``fold_ids`` explicit folds).
 
     The highest degree held is 30, lowered step by step while the rows cannot
     support it; k is lowered to n // 2 for tiny data sets.
     """
-    folds = min(folds, max(2, x.size // 2))
+    if folds != "loo":
+        folds = min(folds, max(2, x.size // 2))
+    if folds == "loo" or fold_ids is not None:
+        repeats = 1                       # one assignment only: nothing to repeat
     last = None
     for top in (defaults.MAX_DEGREE, 20, 15, 10, 5, 2, 1):
         try:
-            return core.build_engine(x, y, max_degree=top, folds=folds, seed=seed, weights=w, groups=groups,
-                                     repeats=repeats, test_fraction=test_fraction, penalty=penalty, mix=mix,
-                                     row_keys=row_keys)
+            engine = core.build_engine(x, y, max_degree=top, folds=folds, seed=seed, weights=w, groups=groups,
+                                       fold_ids=fold_ids, repeats=repeats, test_fraction=test_fraction,
+                                       penalty=penalty, mix=mix, intercept=intercept, row_keys=row_keys)
+            if folds == "loo":
+                engine.cv_summary(top, [0.0])    # leave-one-out refuses degrees its rows cannot support only here
+            return engine
         except DataError as exc:
             last = exc
     raise last
@@ -107,7 +129,7 @@ def surface_for(engine) -> "core.Surface":
     return core.surface_from_engine(engine, [d for d in defaults.DEGREES if d <= engine.max_degree])
 
 
-def loo_engine(rows: Rows, max_degree: int):
+def loo_engine(rows: Rows, max_degree: int, intercept: bool = True):
     """Leave-one-out engine of the training rows, or None when there are too many or too few."""
     x, y, w = rows.training()
     if not 0 < x.size <= LOO_MAX_ROWS:
@@ -115,7 +137,7 @@ def loo_engine(rows: Rows, max_degree: int):
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", NumericalWarning)     # an extra score: no note of its own
-            return core.build_engine(x, y, max_degree=max_degree, folds="loo", weights=w)
+            return core.build_engine(x, y, max_degree=max_degree, folds="loo", weights=w, intercept=intercept)
     except CurvewrightError:
         return None
 

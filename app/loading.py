@@ -13,7 +13,9 @@ from pathlib import Path
 
 from core import defaults
 from core.errors import DataError
-from core.table import column_names, exclude_rows, read_table
+from core.table import column_names, exclude_rows, read_table, transform_table
+
+from .columns import propose_columns
 
 __all__ = ["STREAMABLE", "should_stream", "columns_of", "read_rows", "open_rows", "apply_exclusion",
            "parse_exclude", "load_statistics", "stream_statistics"]
@@ -32,33 +34,45 @@ def columns_of(path) -> list[str]:
     return column_names(Path(path))
 
 
-def read_rows(path, x, y, weights: str = "", *, weight_kind: str = "relative", group: str = ""):
-    """The file's selected columns as a ``core.table.Table`` (rows with empty cells dropped).
+def read_rows(path, x, y, weights: str = "", *, weight_kind: str = "relative", group: str = "", fold: str = "",
+              x_transform: str = "none", y_transform: str = "none"):
+    """The file's selected columns as a ``core.table.Table`` (rows with empty cells dropped), x and y
+    transformed as asked (``core.transforms``).
 
     ``weights`` names a column of weights, or of standard uncertainties when
-    ``weight_kind`` is "uncertainty" (weights 1/u^2).
+    ``weight_kind`` is "uncertainty" (weights 1/u^2); ``group`` a column whose rows stay in one fold;
+    ``fold`` a column giving each row's fold.
     """
     kind = {"relative": None, "uncertainty": None}
     if weights:
         kind[weight_kind] = weights
-    return read_table(path, x=x, y=y, weights=kind["relative"], uncertainty=kind["uncertainty"],
-                      group=group or None, blank_rows="skip")
+    table = read_table(path, x=x, y=y, weights=kind["relative"], uncertainty=kind["uncertainty"],
+                       group=group or None, fold=fold or None, blank_rows="skip")
+    return transform_table(table, x_transform, y_transform)
 
 
 def open_rows(path, *, x: str = "", y: str = "", weights: str = "", weight_kind: str = "relative",
-              group: str = ""):
-    """(column names, table) of a newly opened file.
+              group: str = "", fold: str = "", x_transform: str = "none", y_transform: str = "none"):
+    """(column names, table, proposal note) of a newly opened file.
 
-    The asked-for x and y columns are used when the file has them; otherwise the
-    first column is x and the next other one y.
+    The asked-for x and y columns are used when the file has both; otherwise x, y (and a column of
+    y's uncertainties as weights) are proposed from the header names (``app.columns``), and the note
+    says so. Other asked-for columns are kept only when the file has them.
     """
     cols = columns_of(path)
-    xc = x if x in cols else cols[0]
-    others = [c for c in cols if c != xc]
-    if not others:
-        raise DataError("expected at least two columns.")
-    yc = y if y in others else others[0]
-    return cols, read_rows(path, xc, yc, weights, weight_kind=weight_kind, group=group)
+    note = ""
+    if not (x in cols and y in cols and x != y):
+        try:
+            prop = propose_columns(cols)
+        except ValueError:
+            raise DataError("expected at least two columns (one for x, one for y).") from None
+        x, y, weights, weight_kind = prop["x"], prop["y"], prop["weights"], prop["weight_kind"]
+        note = (f"Proposed x = {x}, y = {y}" + (f", standard uncertainties from {weights}" if weights else "")
+                + " from the column names; change them under Data.")
+    keep = {c: (c if c in cols else "") for c in (weights, group, fold)}
+    table = read_rows(path, x, y, keep[weights], weight_kind=weight_kind, group=keep[group], fold=keep[fold],
+                      x_transform=x_transform, y_transform=y_transform)
+    return cols, table, note
 
 
 def parse_exclude(text: str, table) -> tuple[list[int], str | None]:

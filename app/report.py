@@ -41,16 +41,11 @@ def _model_for(choice: Choice, data_path) -> PageModel:
     the data or the recomputed CV error differ)."""
     doc = choice.doc
     d, m, v = doc["data"], doc["model"], doc["validation"]
-    tf = m.get("transforms") or {"x": "none", "y": "none"}
-    if (tf["x"], tf["y"]) != ("none", "none"):
-        raise DataError(message("Choice file field 'model/transforms'", "no transform for a report",
-                                f"x: {tf['x']}, y: {tf['y']}",
-                                "The report does not re-derive curves fitted in transformed variables yet; "
-                                "use 'curvewright check' on the data to score it"))
-    if v["scheme"] == "explicit":
-        raise DataError(message("Choice file field 'validation/scheme'", "kfold or group for a report",
-                                "'explicit'", "Explicit fold columns are not re-read by the report yet"))
-    session = Session(folds=v["k"], seed=v["seed"], test_fraction=v["sealed_test"]["fraction"],
+    tr = m.get("transforms") or {"x": "none", "y": "none"}
+    session = Session(folds=v["k"] if v["scheme"] != "loo" else Session.folds, seed=v["seed"],
+                      test_fraction=v["sealed_test"]["fraction"], loo=v["scheme"] == "loo",
+                      fold_column=v.get("folds_given_by") or "", through_origin=not m.get("intercept", True),
+                      x_transform=tr["x"], y_transform=tr["y"],
                       repeats=v["repeats"], x_column=d["x_column"], y_column=d["y_column"],
                       weight_column=m["weighting"]["column"] or "",
                       weight_kind=m["weighting"]["kind"] or "relative",

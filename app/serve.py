@@ -22,8 +22,12 @@ def build_page(path=None, stats=None):
     so the page's progress bar can follow it.
     """
     big = path is not None and stats is None and should_stream(path)
-    model = PageModel(Session(), None if (stats or big) else (path or SAMPLE), stats=stats)
+    model = PageModel(Session(), stats=stats)
     page = Workspace(model).panel()
+    if not (stats or big):
+        # loaded once the page is connected, so the slower work after it (the curve's covariance for
+        # read-back and limits) can run in a thread and report back to this page
+        pn.state.onload(lambda: model.load_path(path or SAMPLE))
     if big:
         model.status = f"Streaming {Path(path).name} into the statistics..."
         doc = pn.state.curdoc

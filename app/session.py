@@ -40,10 +40,21 @@ class Session(param.Parameterized):
                                  doc="the weight column holds relative weights, or standard uncertainties "
                                      "(w = 1/u^2)")
     group_column = param.String("", doc="rows sharing a value stay in one fold")
+    fold_column = param.String("", doc="column giving each row's fold (explicit folds)")
+    x_transform = param.Selector(default="none", objects=["none", "log", "reciprocal", "sqrt"])
+    y_transform = param.Selector(default="none", objects=["none", "log", "reciprocal", "sqrt"])
+    through_origin = param.Boolean(False, doc="the curve passes through (0, 0): no constant term")
+    loo = param.Boolean(False, doc="leave-one-out instead of k folds")
     repeats = param.Integer(defaults.REPEATS, bounds=(1, 20))
     penalty = param.Selector(default=defaults.PENALTY, objects=["curvature", "ridge", "lasso", "elastic"])
     mix = param.Number(0.5, bounds=(0.05, 1.0), step=0.05, doc="elastic net: share of the L1 term")
     exclude = param.String("", doc="spreadsheet rows left out on request, e.g. '7, 19' (recorded)")
+    readings = param.String("", doc="readings to read x back from: one per line, or several on a line "
+                                    "(replicates of one unknown)")
+    replicates = param.Integer(1, bounds=(1, 1000), doc="each reading is already the mean of this many")
+    tolerance = param.Number(0.0, bounds=(0.0, None), doc="largest acceptable |error| (0: no check)")
+    tolerance_relative = param.Boolean(False, doc="the tolerance is a share of the prediction")
+    tolerance_rule = param.Selector(default="simple", objects=["simple", "guarded"])
 
     @property
     def lam(self) -> float:

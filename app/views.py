@@ -1,39 +1,53 @@
 """Views of one page: widgets bound to the session, figures and text drawn from the page model.
 
-Views compute nothing: sliders and fields are bound to the ``Session`` (``from_param``),
-buttons call the ``PageModel``'s actions, and every figure and number is read from the
-model when it announces a change (``version``, ``data_version``, ``status``).
+Views compute nothing: sliders and fields are bound to the ``Session`` (``from_param``, or a
+slider's settled value), buttons call the ``PageModel``'s actions, and every figure and number is
+read from the model when it announces a change (``version``, ``data_version``, ``uses_version``,
+``status``). The page's layout is ``app.layout``.
 """
 
 from __future__ import annotations
 
 import io
 import json
-import re
 import threading
 
-import numpy as np
 import panel as pn
 import param
+from bokeh.models import ColumnDataSource, CustomJSTickFormatter
 
-import core
 from core.errors import CurvewrightError
 
 from . import plots
 from .model import PageModel
-from .text import CAUTION, HELP
+from .panels import (calibration_md, numbers_md, plain, readback_glyphs, readback_md, rows_md, suggestions_md,
+                     tolerance_md)
+from .session import LOG_LAMBDA_OFF
+from .text import NO_WEIGHTS, WEIGHT_MEANINGS, learning_reading
+
+_plain = plain      # the name the tests and the report know
+
+def lambda_format():
+    """The lambda slider's label formatter: lambda itself, and exactly "0" at the left end (never the
+    position -9). A new one per page: a Bokeh model belongs to one document."""
+    return CustomJSTickFormatter(code=f"""
+    if (tick <= {LOG_LAMBDA_OFF} + 1e-9) return "0";
+    const v = Math.pow(10, tick);
+    return (v >= 1e-3 && v < 1e4) ? String(Number(v.toPrecision(2))) : v.toExponential(1);""")
 
 
-def _plain(text: str) -> str:
-    """Text shown literally in a Markdown pane: every ASCII punctuation mark backslash-escaped, so
-    file names, column names and cells quoted in a message never become HTML or formatting."""
-    return re.sub(r"([!-/:-@\[-`{-~])", r"\\\1", text)
+READBACK = "#3b6fb6"     # read-back marks: a colour no other mark of the page uses
 
 
-def _fmt(v, digits=5):
-    if v is None or not np.isfinite(v):
-        return "–"
-    return f"{v:.{digits}g}"
+def readback_figure_source(fig):
+    """Add the read-back marks to the fit figure (a line at each reading, its x interval, the estimate);
+    returns their source (named ``readback_marks``)."""
+    src = ColumnDataSource({"y": [], "x0": [], "x1": [], "lo": [], "hi": [], "x": []}, name="readback_marks")
+    # no legend entries: the legend lists what is always drawn; the read-back table names these marks
+    fig.segment("x0", "y", "x1", "y", source=src, color=READBACK, line_dash="dashed", line_width=1.5)
+    fig.segment("lo", "y", "hi", "y", source=src, color=READBACK, line_width=6, alpha=0.6)
+    fig.scatter("x", "y", source=src, marker="x", size=12, line_width=2, color=READBACK)
+    return src
 
 
 class Workspace(param.Parameterized):
@@ -46,81 +60,150 @@ class Workspace(param.Parameterized):
         self.figs = f = plots.FigureSet(xl or "x", yl or "y")
         self.fit_fig, self.rx, self.ry, self.rh = f.fit_fig, f.rx, f.ry, f.rh
         self.fd, self.fl, self.fh, self.lc_fig = f.fd, f.fl, f.fh, f.lc_fig
+        self.rb_src = readback_figure_source(self.fit_fig)
         self.status = pn.pane.Alert("", alert_type="light", sizing_mode="stretch_width", name="status")
-        self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
-        self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
+        self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers", css_classes=["cw-numbers"])
+        self.rows_text = pn.pane.Markdown("", sizing_mode="stretch_width", css_classes=["cw-rows"])
+        self.calib = pn.pane.Markdown("", sizing_mode="stretch_width", css_classes=["cw-calibration"])
+        self.lc_text = pn.pane.Markdown("", sizing_mode="stretch_width", name="learning_text")
+        self.rb_text = pn.pane.Markdown("", sizing_mode="stretch_width", css_classes=["cw-readback"])
+        self.tol_text = pn.pane.Markdown("", sizing_mode="stretch_width", css_classes=["cw-tolerance"])
+        self.weight_meaning = pn.pane.Markdown("", sizing_mode="stretch_width", margin=(0, 10))
+        self.suggestions = pn.pane.Markdown("", sizing_mode="stretch_width", margin=(0, 10),
+                                            css_classes=["cw-suggestions"])
+        self._doc, self._thread = pn.state.curdoc, threading.get_ident()
+        self._syncing = False
         self._build_widgets()
+        m.background = self._in_background if self._doc is not None else None
         m.param.watch(self._on_version, "version")
         m.param.watch(self._on_status, "status")
         m.param.watch(self._on_data, "data_version")
+        m.param.watch(self._on_uses, "uses_version")
         self._on_data()
         self._on_version()
         self._on_status()
+        self._on_uses()
 
     # ---- widgets ------------------------------------------------------------------
     def _build_widgets(self):
         m, s = self.model, self.model.session
-        self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", sizing_mode="stretch_width")
-        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="log10 lambda (left end: 0)",
-                                                     sizing_mode="stretch_width")
-        self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, label="Training fraction",
-                                                      sizing_mode="stretch_width")
-        self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds (k)", width=90)
-        self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", width=90)
+        sw = {"sizing_mode": "stretch_width"}
+        self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", css_classes=["cw-degree"], **sw)
+        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="lambda", format=lambda_format(),
+                                                     css_classes=["cw-lambda"], **sw)
+        # the training fraction rebuilds the statistics: it applies once the slider is released
+        p = s.param.train_fraction
+        self.frac = pn.widgets.FloatSlider(name="Training fraction", start=p.bounds[0], end=p.bounds[1], step=p.step,
+                                           value=s.train_fraction, css_classes=["cw-train-fraction"], **sw)
+        self.frac.param.watch(lambda e: setattr(s, "train_fraction", e.new), "value_throttled")
+        for w in (self.degree, self.lam):
+            w.param.watch(self._on_settle, "value_throttled")
+        self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds", css_classes=["cw-folds"], **sw)
+        self.seed = pn.widgets.IntInput.from_param(s.param.seed, label="Seed", **sw)
+        self.repeats = pn.widgets.IntInput.from_param(s.param.repeats, label="Repeats", css_classes=["cw-repeats"],
+                                                    **sw)
+        self.loo = pn.widgets.Checkbox.from_param(s.param.loo, label="Leave-one-out instead of folds", css_classes=["cw-loo"],
+                                                  **sw)
         self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction",
-                                                      sizing_mode="stretch_width")
-        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", label="Data file",
-                                           sizing_mode="stretch_width")
+                                                      css_classes=["cw-sealed"], **sw)
+        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", **sw)
         self.upload.param.watch(self._on_upload, "value")
-        cols = m.columns or [""]
-        self.xcol = pn.widgets.Select(label="x column", options=cols, value=s.x_column or cols[0], width=150)
-        self.ycol = pn.widgets.Select(label="y column", options=cols, value=s.y_column or cols[-1], width=150)
-        self.wcol = pn.widgets.Select(label="weights (optional)", options=[""] + cols, value=s.weight_column, width=150)
-        self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="that column holds", width=150)
-        self.apply_cols = pn.widgets.Button(label="Use these columns", color="default")
-        self.apply_cols.on_click(lambda e: self._safe(lambda: m.select_columns(self.xcol.value, self.ycol.value,
-                                                                                  self.wcol.value)))
-        self.rec_min = pn.widgets.Button(label="Suggest: lowest CV error", color="primary")
-        self.rec_1se = pn.widgets.Button(label="Suggest: simplest within one SE", color="primary")
+        self.xcol = pn.widgets.Select(name="x column", css_classes=["cw-xcol"], **sw)
+        self.ycol = pn.widgets.Select(name="y column", css_classes=["cw-ycol"], **sw)
+        self.wcol = pn.widgets.Select(name="Weights column", css_classes=["cw-wcol"], **sw)
+        self.gcol = pn.widgets.Select(name="Group column", css_classes=["cw-gcol"], **sw)
+        self.fcol = pn.widgets.Select(name="Fold column", css_classes=["cw-fcol"], **sw)
+        for w, name in ((self.xcol, "x_column"), (self.ycol, "y_column"), (self.wcol, "weight_column"),
+                        (self.gcol, "group_column"), (self.fcol, "fold_column")):
+            w.param.watch(lambda e, n=name: self._set_column(n, e.new), "value")
+        self.wkind = pn.widgets.Select.from_param(s.param.weight_kind, label="Weights column holds",
+                                                   css_classes=["cw-wkind"], **sw)
+        self.xt = pn.widgets.Select.from_param(s.param.x_transform, label="x transform", css_classes=["cw-xt"], **sw)
+        self.yt = pn.widgets.Select.from_param(s.param.y_transform, label="y transform", **sw)
+        self.origin = pn.widgets.Checkbox.from_param(s.param.through_origin, label="Through (0, 0): no constant term",
+                                                     css_classes=["cw-origin"], **sw)
+        self.rec_min = pn.widgets.Button(label="Suggest: lowest CV error", color="primary", **sw)
+        self.rec_1se = pn.widgets.Button(label="Suggest: simplest within one SE", color="primary", **sw)
         self.rec_min.on_click(lambda e: self._safe(lambda: m.recommend("lowest")))
         self.rec_1se.on_click(lambda e: self._safe(lambda: m.recommend("simplest")))
-        self.lc_button = pn.widgets.Button(label="Learning curve", color="default")
-        self.lc_button.on_click(lambda e: self._safe(m.compute_learning_curve))
-        self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning")
-        self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False)
+        self.reveal = pn.widgets.Button(label="Reveal sealed test…", color="warning", **sw)
+        self.confirm = pn.widgets.Checkbox(label="I have made my choice; reveal and record it", visible=False,
+                                           css_classes=["cw-confirm"])
         self.confirm_btn = pn.widgets.Button(label="Confirm reveal", color="danger", visible=False)
         self.reveal.on_click(self._ask_reveal)
         self.confirm_btn.on_click(self._do_reveal)
-        self.notes = pn.widgets.TextAreaInput(label="Notes for the export", height=70, sizing_mode="stretch_width")
+        self.notes = pn.widgets.TextAreaInput(name="Notes for the export", height=70, **sw)
         self.download = pn.widgets.FileDownload(callback=self._export, filename="curve_choice.json",
-                                                label="Export choice (JSON)", color="success",
-                                                sizing_mode="stretch_width")
+                                                label="Export choice (JSON)", color="success", **sw)
         self.report = pn.widgets.FileDownload(callback=self._report, filename="curve_report.html",
-                                              label="Download report (HTML)", color="default",
-                                              sizing_mode="stretch_width")
-        self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default")
-        self.save_beside.on_click(self._save_beside)
-        self.penalty = pn.widgets.Select.from_param(s.param.penalty, label="Penalty", width=140)
-        self.mix = pn.widgets.FloatSlider.from_param(s.param.mix, label="Elastic-net L1 share", width=160)
+                                              label="Download report (HTML)", color="default", **sw)
+        self.save_beside = pn.widgets.Button(label="Save next to the data file", color="default", **sw)
+        self.save_beside.on_click(lambda e: m.save_beside(self.notes.value or ""))
+        self.penalty = pn.widgets.Select.from_param(s.param.penalty, label="Penalty", css_classes=["cw-penalty"], **sw)
+        self.mix = pn.widgets.FloatSlider.from_param(s.param.mix, label="Elastic-net L1 share", css_classes=["cw-mix"],
+                                                     **sw)
         self.exclude = pn.widgets.TextInput.from_param(s.param.exclude, label="Exclude rows (recorded)",
-                                                       placeholder="e.g. 11, 33", sizing_mode="stretch_width")
-        self.boot = pn.widgets.Button(label="Bootstrap band (200 refits)", color="default")
+                                                       placeholder="e.g. 11, 33", **sw)
+        self.boot = pn.widgets.Button(label="Bootstrap band", color="default", **sw)
         self.boot.on_click(lambda e: self._safe(m.bootstrap_band))
-        self.bv = pn.widgets.Button(label="Bias / variance split", color="default")
+        self.bv = pn.widgets.Button(label="Bias / variance", color="default", **sw)
         self.bv.on_click(lambda e: self._safe(m.compute_bias_variance))
-        self.progress = pn.indicators.Progress(value=0, max=1000, visible=False, sizing_mode="stretch_width",
-                                               name="progress")
+        self.readings = pn.widgets.TextAreaInput.from_param(
+            s.param.readings, name="Readings (y), one unknown per line", height=120, css_classes=["cw-readings"],
+            placeholder="0.21\n0.30 0.31 0.29   <- replicates of one unknown", **sw)
+        self.replicates = pn.widgets.IntInput.from_param(s.param.replicates, label="A single reading is the mean of",
+                                                         **sw)
+        self.tolerance = pn.widgets.FloatInput.from_param(s.param.tolerance, label="Tolerance (0: no check)",
+                                                          step=0.01, css_classes=["cw-tolerance-input"], **sw)
+        self.tol_rel = pn.widgets.Checkbox.from_param(s.param.tolerance_relative,
+                                                      label="Tolerance is a share of the prediction", **sw)
+        self.tol_rule = pn.widgets.Select.from_param(s.param.tolerance_rule, label="Decision rule", **sw)
+        self.progress = pn.indicators.Progress(value=0, max=1000, visible=False, name="progress", **sw)
         self.progress_text = pn.pane.Str("", visible=False)
-        self._doc, self._thread = pn.state.curdoc, threading.get_ident()
         m.param.watch(self._on_progress, ["progress", "progress_text"])
         self.busy = pn.indicators.LoadingSpinner(value=False, size=20)
         m.param.watch(lambda e: setattr(self.busy, "value", e.new), "busy")
+        s.param.watch(self._show_weight_meaning, ["weight_kind", "weight_column"])
+        s.param.watch(self._sync_selects, ["x_column", "y_column", "weight_column", "group_column", "fold_column"])
+        s.param.watch(lambda e: setattr(self.mix, "visible", e.new == "elastic"), "penalty")
+        self.mix.visible = s.penalty == "elastic"
+        self._show_weight_meaning()
+
+    def _sync_selects(self, *_):
+        """Column selects follow the session (the model may set or restore them)."""
+        s = self.model.session
+        self._syncing = True
+        try:
+            for w, val in ((self.xcol, s.x_column), (self.ycol, s.y_column), (self.wcol, s.weight_column),
+                           (self.gcol, s.group_column), (self.fcol, s.fold_column)):
+                if val in w.options and w.value != val:
+                    w.value = val
+        finally:
+            self._syncing = False
+
+    def _set_column(self, name, value):
+        s = self.model.session
+        if not self._syncing and getattr(s, name) != (value or ""):
+            self._safe(lambda: setattr(s, name, value or ""))
+
+    def _show_weight_meaning(self, *_):
+        s = self.model.session
+        self.weight_meaning.object = WEIGHT_MEANINGS[s.weight_kind] if s.weight_column else NO_WEIGHTS
 
     def _safe(self, fn):
         try:
             fn()
         except CurvewrightError as exc:
             self.model.status = str(exc)
+
+    def _in_background(self, work, done):
+        """Run ``work()`` in a thread and ``done(result)`` on this page's own thread."""
+        doc = self._doc
+
+        def run():
+            result = work()
+            doc.add_next_tick_callback(lambda: done(result))
+        threading.Thread(target=run, daemon=True).start()
 
     # ---- events -------------------------------------------------------------------
     def _on_progress(self, *_):
@@ -138,13 +221,16 @@ class Workspace(param.Parameterized):
             self.progress_text.visible = bool(s.progress_text)
 
     def _on_upload(self, event):
-        if not event.new:
-            return
-        m = self.model
-        m.load_bytes(event.new, self.upload.filename or "upload.csv")
-        cols = m.columns or [""]
-        self.xcol.options, self.ycol.options, self.wcol.options = cols, cols, [""] + cols
-        self.xcol.value, self.ycol.value = m.session.x_column, m.session.y_column
+        if event.new:
+            self.model.load_bytes(event.new, self.upload.filename or "upload.csv")
+
+    def _on_settle(self, _):
+        # the slider's own value may arrive in the same message: read the session on the next tick
+        doc = pn.state.curdoc
+        if doc is not None and doc.session_context is not None:
+            doc.add_next_tick_callback(lambda: self._safe(self.model.settle))
+        else:
+            self._safe(self.model.settle)
 
     def _ask_reveal(self, _):
         self.confirm.visible = True
@@ -155,8 +241,12 @@ class Workspace(param.Parameterized):
             self.model.status = "Tick the confirmation box to reveal the sealed test."
             return
         self.model.reveal_test()
+        self.model.refresh_uses()
         self.confirm.visible = self.confirm_btn.visible = False
         self.confirm.value = False
+
+    def _names(self):
+        return self.model.file_name("choice", "json"), self.model.file_name("report", "html")
 
     def _export(self):
         try:
@@ -164,7 +254,7 @@ class Workspace(param.Parameterized):
         except CurvewrightError as exc:
             self.model.status = f"Export failed: {exc}"
             return io.StringIO(json.dumps({"error": str(exc)}))
-        self.model.status = "Choice exported (downloaded as curve_choice.json)."
+        self.model.status = f"Choice exported (downloaded as {self.download.filename})."
         return io.StringIO(text)
 
     def _report(self):
@@ -178,16 +268,13 @@ class Workspace(param.Parameterized):
             text = report_in_subprocess(m.choice(self.notes.value or "").to_json(), m.source_path)
         except CurvewrightError as exc:
             m.status = f"Export failed: {exc}"
-            return io.StringIO(f"<p>Report not built: {exc}</p>")
-        m.status = "Report downloaded (curve_report.html)."
+            return io.StringIO(f"<p>Report not built: {plain(str(exc))}</p>")
+        m.status = f"Report downloaded ({self.report.filename})."
         return io.StringIO(text)
-
-    def _save_beside(self, _):
-        self.model.save_beside(self.notes.value or "")
 
     def _on_status(self, *_):
         text = self.model.status
-        self.status.object = _plain(text)
+        self.status.object = plain(text)
         self.status.alert_type = "danger" if text.startswith(("Could not", "Export failed", "Not saved")) else "light"
 
     def _on_data(self, *_):
@@ -195,8 +282,20 @@ class Workspace(param.Parameterized):
             self._update_data_views()
 
     def _update_data_views(self):
-        self.figs.update_data(self.model)
-        self.lc_text.object = "Press *Learning curve* to compute it for the current setting."
+        m = self.model
+        self.figs.update_data(m)
+        cols = list(m.columns) or [""]
+        s = m.session
+        self._syncing = True          # the model chose these: do not send them back as a user's choice
+        try:
+            for w, opts, val in ((self.xcol, cols, s.x_column), (self.ycol, cols, s.y_column),
+                                 (self.wcol, [""] + cols, s.weight_column), (self.gcol, [""] + cols, s.group_column),
+                                 (self.fcol, [""] + cols, s.fold_column)):
+                w.param.update(options=opts, value=val if val in opts else opts[0])
+        finally:
+            self._syncing = False
+        self.rows_text.object = rows_md(m)
+        self.suggestions.object = suggestions_md(m)
 
     def _on_version(self, *_):
         # Button events arrive outside the document lock; ``unlocked`` sends the
@@ -209,86 +308,30 @@ class Workspace(param.Parameterized):
         if not m.out:
             return
         self.figs.update(m, show_sealed=m.surface is not None and m.surface.test_revealed)
-        if m.learning is not None:
-            self.lc_text.object = (f"**Reading (guidance, not certainty):** "
-                                   f"{m.learning.reading()}  \n"
-                                   f"Computed for degree {m.learning.degree}, lambda {_fmt(m.learning.lam, 3)}.")
-        self.numbers.object = self._numbers_md(m.out)
+        self.lc_text.object = self._learning_md()
+        self.numbers.object = numbers_md(m)
+        self.rows_text.object = rows_md(m)
+        self.download.filename, self.report.filename = self._names()
 
-    def _numbers_md(self, out) -> str:
+    def _on_uses(self, *_):
+        with pn.io.unlocked():
+            m = self.model
+            self.rb_text.object = readback_md(m)
+            self.tol_text.object = tolerance_md(m)
+            self.calib.object = calibration_md(m)
+            self.rb_src.data = readback_glyphs(m)
+
+    def _learning_md(self) -> str:
         m = self.model
-        e = m.engine
-        lines = [f"### Degree {out['degree']}, lambda {_fmt(out['lam'], 4)}", "",
-                 f"CV RMSE **{_fmt(out['cv_rmse'])}** ± {_fmt(out['cv_rmse_se'], 2)} · "
-                 f"training RMSE {_fmt(out['train_rmse'])} · "
-                 f"effective df {_fmt(out['effective_df'], 4)} · rows: {e.n_train} for CV, {e.n_test} sealed", ""]
-        extra = [f"GCV {_fmt(out.get('gcv_mse'))}"]
-        if out.get("loo_mse") is not None:
-            extra.append(f"leave-one-out MSE {_fmt(out['loo_mse'])} (one standardization for all rows)")
-        if out.get("reduced_chi_square") is not None:
-            extra.append(f"reduced chi-square {_fmt(out['reduced_chi_square'], 4)} (near 1 when the curve and the "
-                         "stated uncertainties agree)")
-        lines.extend([" · ".join(extra), ""])
-        sealed = m.surface.sealed.to_dict()
-        if sealed["revealed"]:
-            lines.append(f"Sealed test RMSE **{_fmt(sealed['rmse'])}** (revealed {sealed['revealed_at']} "
-                         f"for degree {sealed['degree']}, lambda {_fmt(sealed['lambda'], 3)})")
-        else:
-            lines.append("Sealed test: not revealed.")
-        lines.append("")
-        lines.append("| term | coefficient (raw x) |")
-        lines.append("|---|---|")
-        if out["power"] is not None:
-            for k, a in enumerate(out["power"]):
-                lines.append(f"| {'1' if k == 0 else ('x' if k == 1 else f'x^{k}')} | {a:.10g} |")
-        else:
-            lines.append("| – | not defined: this degree is too collinear for the chosen penalty |")
-        lines.append("")
-        lines.append("Standard errors and the exact least-squares numbers are in the export and `curvewright fit`.")
-        if out["penalty"] != "ridge":
-            lines.insert(2, f"Penalty: {out['penalty']}"
-                         + (f" (L1 share {out['mix']:g})" if out["penalty"] == "elastic" else ""))
-        infl = out.get("influential")
-        if infl is not None and infl.any():
-            rows = ", ".join(str(int(r)) for r in out["rows"][infl][:10])
-            lines.append(f"\n*Influential rows* (Cook's D > 4/n, common practice; purple in the residual plots): "
-                         f"{rows}. Check them; exclude one only with a reason (it is recorded).")
-        if m.table is not None and m.table.excluded_rows:
-            lines.append(f"\n*Excluded on request:* rows {', '.join(map(str, m.table.excluded_rows))}.")
-        if m.bias_var is not None:
-            b = m.bias_var
-            lines.append(f"\n*Expected error split* (simulated from the fit): bias² {b.bias2:.4g} + variance "
-                         f"{b.variance:.4g} + noise {b.noise:.4g} = {b.expected_mse:.4g}")
-        for w in out.get("warnings", [])[:2]:
-            lines.append(f"\n*Note:* {w}")
-        return "\n".join(lines)
+        lc = m.learning
+        if lc is None:
+            return plain(m.learning_note or "The learning curve appears once a setting is chosen.")
+        pen = "no penalty" if m.learning_note else f"{m.engine.penalty} penalty"
+        head = (f"Degree {lc.degree}, lambda {lc.lam:.3g} ({pen}), {lc.folds} folds x {lc.repeats} repeats; "
+                "recomputed whenever a slider comes to rest.")
+        return "  \n".join(plain(t) for t in (learning_reading(lc), head, m.learning_note) if t)
 
-    # ---- layout ---------------------------------------------------------------------
     def panel(self):
-        controls = pn.Column(
-            pn.pane.Markdown("#### Data"), self.upload, pn.Row(self.xcol, self.ycol), pn.Row(self.wcol, self.wkind), self.apply_cols,
-            pn.pane.Markdown("#### Flexibility"), self.degree, self.lam, pn.Row(self.penalty, self.mix),
-            pn.pane.Markdown("#### Validation"), self.frac, pn.Row(self.folds, self.seed), self.test,
-            pn.Row(self.rec_min), pn.Row(self.rec_1se), self.lc_button,
-            pn.pane.Markdown("#### Uncertainty and outliers"), pn.Row(self.boot, self.bv), self.exclude,
-            pn.pane.Markdown("#### Sealed test and export"), self.reveal, self.confirm, self.confirm_btn,
-            self.notes, self.download, self.report, self.save_beside,
-            width=330, sizing_mode="fixed", styles={"background": "#f4f1ea", "padding": "6px"},
-        )
-        curve_tab = pn.Column(pn.Row(self.fit_fig, sizing_mode="stretch_width"),
-                              pn.Row(self.rx, self.ry, sizing_mode="stretch_width"),
-                              pn.Row(self.rh, self.numbers, sizing_mode="stretch_width"),
-                              sizing_mode="stretch_width")
-        cx_tab = pn.Column(pn.Row(self.fd, self.fl, sizing_mode="stretch_width"), self.fh,
-                           sizing_mode="stretch_width")
-        lc_tab = pn.Column(self.lc_fig, self.lc_text, sizing_mode="stretch_width")
-        help_tab = pn.pane.Markdown(HELP, sizing_mode="stretch_width")
-        tabs = pn.Tabs(("Curve & residuals", curve_tab), ("Error vs flexibility", cx_tab),
-                       ("Learning curve", lc_tab), ("How to read this", help_tab),
-                       dynamic=False, sizing_mode="stretch_width")
-        header = pn.Row(pn.pane.Markdown("## curvewright · how flexible may this curve be?",
-                                         styles={"color": plots.INK}), self.busy, sizing_mode="stretch_width")
-        caution = pn.pane.Alert(CAUTION, alert_type="warning", sizing_mode="stretch_width", name="caution")
-        return pn.Column(header, caution, self.status, self.progress, self.progress_text,
-                         pn.Row(controls, tabs, sizing_mode="stretch_width"),
-                         sizing_mode="stretch_width")
+        from .layout import page_layout
+
+        return page_layout(self)

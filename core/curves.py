@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .basis import Domain
+from .errors import ParameterError, message
 from .folds import make_plan
 from .moments import accumulate, complement_sums
 from .params import check
@@ -98,7 +99,8 @@ class SizeCurve:
 
 def size_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.0, 10),
                folds: int = 10, repeats: int = 3, seed: int = 0, weights=None, groups=None,
-               test_fraction: float = 0.0, intercept: bool = True) -> SizeCurve:
+               test_fraction: float = 0.0, intercept: bool = True, penalty: str = "ridge",
+               domain: Domain | None = None) -> SizeCurve:
     """Learning curve of one configuration (see module docstring).
 
     Parameters
@@ -110,12 +112,21 @@ def size_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.
         Fractions in (0, 1] of each fold's training rows.
     folds, repeats, seed, weights, groups, test_fraction, intercept
         As for ``core.sweep`` (the sealed rows are left out entirely).
+    penalty : {"ridge", "curvature"}
+        The quadratic penalty lambda weighs (the ones whose fit follows from the statistics).
+    domain : Domain, optional
+        The x range mapped onto [-1, 1] (where the curvature integral runs); default the
+        range of the rows outside the sealed set. Pass a sweep's ``engine.domain`` so the
+        curve's lambda means what it means there.
 
     Returns
     -------
     SizeCurve
     """
     p = check(degree=degree, lam=lam, sizes=sizes, intercept=intercept)
+    if penalty not in ("ridge", "curvature"):
+        raise ParameterError(message("Penalty of a learning curve", "ridge or curvature", repr(penalty),
+                                     "The lasso and elastic net need the rows of every subset"))
     degree, lam, sizes = p.degree, p.lam, p.sizes
     x, y, w = check_xyw(x, y, weights)
     require_spread(x)
@@ -130,7 +141,8 @@ def size_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.
         ok = plan.labels[r] >= 0
         labels[r, ok] = (r * k + plan.labels[r, ok]) * nb + b[ok]
     keep = ~plan.test_mask
-    domain = Domain.from_range(x[keep].min(), x[keep].max())
+    if domain is None:
+        domain = Domain.from_range(x[keep].min(), x[keep].max())
     mom = accumulate(x, y, labels=labels, n_cells=R * k * nb, domain=domain, max_degree=degree,
                      weights=None if weights is None else w)
     G = mom.gram.reshape(R, k, nb, *mom.gram.shape[1:])
@@ -151,7 +163,7 @@ def size_curve(x, y, degree: int, lam: float = 0.0, *, sizes=np.linspace(0.1, 1.
                 if counts[f] <= p:
                     continue
                 sv = FoldSolver(train[f], domain, mom.y_shift, intercept)
-                theta = sv.coefficients(degree, np.array([lam]))
+                theta = sv.coefficients(degree, np.array([lam]), penalty)
                 S = sv.working(train[f])
                 H = sv.working(held[f])
                 tr[r * k + f, i] = FoldSolver.sse(S, theta)[0] / S[0, 0]

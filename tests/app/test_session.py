@@ -29,4 +29,5 @@ def test_sessions_hold_inputs_only():
     names = set(Session.param) - {"name"}
     assert names == {"degree", "log_lambda", "train_fraction", "folds", "seed", "test_fraction", "x_column",
                      "y_column", "weight_column", "weight_kind", "group_column", "repeats", "penalty", "mix",
-                     "exclude"}
+                     "exclude", "fold_column", "x_transform", "y_transform", "through_origin", "loo", "readings",
+                     "replicates", "tolerance", "tolerance_relative", "tolerance_rule"}

@@ -97,7 +97,7 @@ def test_reveal_sealed_test_needs_confirmation(workbench):
     page.get_by_role("button", name="Confirm reveal").click()
     page.get_by_text("Tick the confirmation box").wait_for()
     assert page.evaluate(sealed) == 0
-    page.locator("input[type=checkbox]").first.check()
+    page.locator(".cw-confirm input").check()
     page.get_by_role("button", name="Confirm reveal").click()
     page.get_by_text("Sealed test revealed: RMSE").first.wait_for()
     page.wait_for_function(sealed + " > 0", timeout=10000)

@@ -66,3 +66,46 @@ def test_sizes_are_validated():
     x, y = invented(50)
     with pytest.raises(core.ParameterError, match=r"Parameter 'sizes': expected fractions in \(0, 1\]"):
         core.size_curve(x, y, 1, 0.0, sizes=[0.0, 0.5])
+
+
+def _dense_curvature_fit(t, y, degree, lam):
+    """Legendre coefficients minimising (1/n) sum (y - f(t))^2 + lam * integral_{-1}^{1} f''(t)^2 dt, by a
+    dense normal-equation solve; the penalty matrix from numpy.polynomial.legendre's derivative, product and
+    integral (the roughness penalty of Green & Silverman 1994, sec. 1.2, over the mapped range)."""
+    from numpy.polynomial import legendre as L
+
+    P = L.legvander(t, degree)
+    second = [L.legder(np.eye(degree + 1)[j], 2) for j in range(degree + 1)]
+    omega = np.zeros((degree + 1, degree + 1))
+    for j in range(degree + 1):
+        for k in range(degree + 1):
+            prod = L.legint(L.legmul(second[j], second[k]))
+            omega[j, k] = L.legval(1.0, prod) - L.legval(-1.0, prod)
+    n = t.size
+    return np.linalg.solve(P.T @ P / n + lam * omega, P.T @ y / n)
+
+
+def test_curvature_learning_curve_equals_dense_penalized_refits():
+    """With penalty="curvature", the full-size point equals refitting each fold's training rows by a dense
+    solve of the curvature-penalized least squares (numpy.polynomial.legendre for the penalty integral) and
+    scoring the held-out fold."""
+    x, y = invented(150)
+    lam, degree = 1e-3, 5
+    dom = core.Domain.from_range(-0.1, 1.1)
+    lc = core.size_curve(x, y, degree, lam, sizes=[1.0], folds=4, repeats=1, seed=3, penalty="curvature",
+                         domain=dom)
+    labels = core.make_plan(x.size, folds=4, seed=3).labels[0]
+    t = dom.map(x)
+    mses = []
+    for f in range(4):
+        tr, te = labels != f, labels == f
+        theta = _dense_curvature_fit(t[tr], y[tr], degree, lam)
+        mses.append(np.mean((y[te] - np.polynomial.legendre.legval(t[te], theta)) ** 2))
+    assert lc.cv_mse[-1] == pytest.approx(np.mean(mses), rel=1e-8)
+
+
+def test_learning_curve_refuses_the_lasso():
+    """The lasso has no fit from the statistics of a subset: refused by name."""
+    x, y = invented(100)
+    with pytest.raises(core.ParameterError, match="Penalty of a learning curve"):
+        core.size_curve(x, y, 3, 0.1, penalty="lasso")
