@@ -128,3 +128,17 @@ def test_report_without_replicates_says_lack_of_fit_was_not_tested(made):
     """The furnace set has no repeated x: the report says why there is no lack-of-fit test, not nothing."""
     _, _, out = made
     assert "Lack of fit: not tested (no x value is repeated" in out.read_text()
+
+
+THERMISTOR = ROOT / "sample_sets" / "thermistor_bench.csv"
+
+
+def test_report_of_a_curve_in_transformed_variables(tmp_path):
+    """1/T against ln R (Steinhart-Hart form): the report re-derives the curve in the transformed variables and
+    its recomputed CV error equals the choice file's (the report refuses on a mismatch), through-origin off."""
+    choice, out = tmp_path / "t.json", tmp_path / "t.html"
+    assert main(["sweep", str(THERMISTOR), "--x", "resistance", "--y", "probe_T [K]", "--x-transform", "log",
+                 "--y-transform", "reciprocal", "--degrees", "1-3", "--save", str(choice)]) == 0
+    assert main(["report", str(choice), str(THERMISTOR), "--out", str(out)]) == 0
+    doc = json.loads(choice.read_text())
+    assert float(field(out.read_text(), "cv_rmse")[0]) == pytest.approx(doc["validation"]["cv_rmse"], rel=1e-9)
