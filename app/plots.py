@@ -12,6 +12,7 @@ from bokeh.models import (BasicTicker, ColorBar, ColumnDataSource, HoverTool, Li
                           Whisker)
 from bokeh.plotting import figure
 
+from . import clientside
 from .session import LOG_LAMBDA_OFF
 
 # The workbench palette (our own): ink, fit rows, set-aside rows, sealed rows, warnings.
@@ -206,12 +207,14 @@ class FigureSet:
         (self.rx, self.ry, self.rh), self.res_src, self.res_lines = make_residual_figures(x_label, y_label)
         (self.fd, self.fl, self.fh), self.cx_src, _ = make_complexity_figures()
         self.lc_fig, self.lc_src = make_learning_figure()
+        self.client_src = clientside.stats_source()     # the browser's copy of the fit's factorization
 
     def update_data(self, model) -> None:
         """Parts that change only with new statistics: heat map, axis labels (``model``: a
         ``app.model.PageModel``)."""
         import math
 
+        self.client_src.data = clientside.factorization(model.engine)
         if model.surface is not None:
             s = model.surface
             self.cx_src["heat"].data = heat_columns(s)

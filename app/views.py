@@ -19,7 +19,7 @@ import param
 import core
 from core.errors import CurvewrightError
 
-from . import plots
+from . import clientside, plots
 from .model import PageModel
 from .text import CAUTION, HELP
 
@@ -50,6 +50,7 @@ class Workspace(param.Parameterized):
         self.numbers = pn.pane.Markdown("", sizing_mode="stretch_width", name="numbers")
         self.lc_text = pn.pane.Markdown("Press *Learning curve* to compute it for the current setting.")
         self._build_widgets()
+        clientside.attach(self.figs, self.degree, self.lam)     # the fit redrawn in the browser, same frame
         m.param.watch(self._on_version, "version")
         m.param.watch(self._on_status, "status")
         m.param.watch(self._on_data, "data_version")
@@ -61,8 +62,8 @@ class Workspace(param.Parameterized):
     def _build_widgets(self):
         m, s = self.model, self.model.session
         self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", sizing_mode="stretch_width")
-        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="log10 lambda (left end: 0)",
-                                                     sizing_mode="stretch_width")
+        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="Lambda (log scale; left end: 0)",
+                                                     format=clientside.LAMBDA_FORMAT, sizing_mode="stretch_width")
         self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, label="Training fraction",
                                                       sizing_mode="stretch_width")
         self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds (k)", width=90)
