@@ -205,10 +205,11 @@ function evaluate(P, m) {{
   return out;
 }}
 const gx = curve.data.x, Pg = cached("grid", gx), yg = evaluate(Pg, gx.length);
+// every change below stays in this page ({{sync: false}}): the server computes its own answer
 const newCurve = {{x: gx, y: yg}};
 stats.__cw_busy = true;                           // changes below are the browser's (tests read this)
 curve.__cw_data = newCurve;
-curve.data = newCurve;
+curve.setv({{data: newCurve}}, {{sync: false}});
 // 95% reading band at lambda = 0: s^2 (1 + p' (P'WP)^-1 p) (core.fit.fit_from_engine, core.bands)
 if (L === 0 && d > 0 && isFinite(S.tq[d]) && n - d - 1 > 0) {{
   const s2r = sse / (n - d - 1), Gi = S.ginv[d], q = S.tq[d];
@@ -224,9 +225,9 @@ if (L === 0 && d > 0 && isFinite(S.tq[d]) && n - d - 1 > 0) {{
     const half = q * Math.sqrt(Math.max(s2r * v + s2r, 0.0));
     lo[i] = yg[i] - half; hi[i] = yg[i] + half;
   }}
-  interval.data = {{x: gx, lo: lo, hi: hi}};
+  interval.setv({{data: {{x: gx, lo: lo, hi: hi}}}}, {{sync: false}});
 }} else if (interval.data.x.length) {{
-  interval.data = {{x: [], lo: [], hi: []}};
+  interval.setv({{data: {{x: [], lo: [], hi: []}}}}, {{sync: false}});
 }}
 // residuals of the rows drawn (influential rows are marked by the server's answer)
 const px = points.data.x, py = points.data.y, m = px.length;
@@ -241,16 +242,17 @@ if (m && res.data.x.length === m) {{
     if (r[i] < lo) lo = r[i];
     if (r[i] > hi) hi = r[i];
   }}
-  res.data = {{x: res.data.x, fitted: fitted, r: r, color: color, row: res.data.row, size: size}};
+  res.setv({{data: {{x: res.data.x, fitted: fitted, r: r, color: color, row: res.data.row, size: size}}}},
+         {{sync: false}});
   const bins = Math.min(30, Math.max(5, Math.floor(m / 4)));
   const w = (hi - lo) / bins || 1.0;
   const count = new Float64Array(bins), left = new Float64Array(bins), right = new Float64Array(bins);
   for (let b = 0; b < bins; b++) {{ left[b] = lo + b * w; right[b] = lo + (b + 1) * w; }}
   for (let i = 0; i < m; i++) count[Math.min(bins - 1, Math.floor((r[i] - lo) / w))] += 1;
-  hist.data = {{left: left, right: right, count: count}};
+  hist.setv({{data: {{left: left, right: right, count: count}}}}, {{sync: false}});
 }}
-up.location = 2 * sd;
-dn.location = -2 * sd;
+up.setv({{location: 2 * sd}}, {{sync: false}});
+dn.setv({{location: -2 * sd}}, {{sync: false}});
 stats.__cw_busy = false;
 """
 
@@ -266,7 +268,8 @@ def attach(figs, degree_widget, lambda_widget) -> None:
 
     up, dn = figs.res_lines["x"]
     up2, dn2 = figs.res_lines["fitted"]
-    code = fit_in_browser_js(ALERT, FIT_ROWS) + "up2.location = up.location; dn2.location = dn.location;\n"
+    code = (fit_in_browser_js(ALERT, FIT_ROWS)
+            + "up2.setv({location: up.location}, {sync: false}); dn2.setv({location: dn.location}, {sync: false});\n")
     for w in (degree_widget, lambda_widget):
         w.jscallback(value=code, args={
             "stats": figs.client_src, "degree": degree_widget, "lam": lambda_widget,

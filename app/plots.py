@@ -29,7 +29,7 @@ HEAT = ["#f7f4ea", "#e3dcc2", "#c9c19b", "#a8a57a", "#7f8c6a", "#57725e", "#3559
 
 def _fig(title, x_label, y_label, **kw):
     f = figure(title=title, x_axis_label=x_label, y_axis_label=y_label, height=300,
-               sizing_mode="stretch_width", output_backend="webgl", toolbar_location="right",
+               sizing_mode="stretch_width", output_backend="canvas", toolbar_location="right",
                tools="pan,wheel_zoom,box_zoom,reset,save", **kw)
     f.title.text_font_size = "11pt"
     f.title.text_color = INK
@@ -50,7 +50,7 @@ def make_fit_figure(x_label: str, y_label: str):
             legend_label="95% prediction interval")
     f.multi_line("xs", "ys", source=src["band"], color=BAND, alpha=0.55, line_width=1,
                  legend_label="refit on each fold's training rows")
-    f.scatter("x", "y", source=src["points"], size=6, color=FIT_ROWS, alpha=0.75, legend_label="rows in the fit")
+    f.scatter("x", "y", source=src["points"], size=6, fill_color=FIT_ROWS, line_color=None, fill_alpha=0.75, legend_label="rows in the fit")
     f.scatter("x", "y", source=src["aside"], size=7, marker="circle", fill_color=None, line_color=ASIDE,
               line_width=1.5, legend_label="rows set aside (training fraction)")
     f.scatter("x", "y", source=src["sealed"], size=9, marker="diamond", color=SEALED, legend_label="sealed test rows")
@@ -71,7 +71,7 @@ def make_residual_figures(x_label: str, y_label: str):
     fy = _fig("Residuals against fitted value", "fitted " + y_label, "residual")
     lines = {}
     for f, col in ((fx, "x"), (fy, "fitted")):
-        f.scatter(col, "r", source=src["res"], size="size", color="color", alpha=0.8)
+        f.scatter(col, "r", source=src["res"], size="size", fill_color="color", line_color=None, fill_alpha=0.8)
         f.add_tools(HoverTool(tooltips=[("row", "@row"), ("residual", "@r{0.0000}")], renderers=f.renderers[-1:]))
         zero = Span(location=0, dimension="width", line_color=INK, line_width=1)
         up = Span(location=0, dimension="width", line_color=ALERT, line_dash="dashed")
