@@ -130,10 +130,9 @@ const d = Math.min(Math.round(degree.value), S.ok.length - 1);
 if (!S.ok[d]) return;                             // rank-deficient degree: the server answers
 // the server's own answer for exactly this setting is on show already: keep it
 const mine = curve.__cw_data !== undefined && curve.data === curve.__cw_data;
-const lamShown = lam_now.data.x.length ? lam_now.data.x[0] : NaN;
-const lamHere = L > 0 ? L : Math.pow(10, {LOG_LAMBDA_OFF});
+const lamShown = lam_now.data.lam && lam_now.data.lam.length ? lam_now.data.lam[0] : NaN;
 if (!mine && deg_now.data.x.length && deg_now.data.x[0] === d &&
-    Math.abs(lamShown - lamHere) <= 1e-12 * lamHere) return;
+    (lamShown === L || Math.abs(lamShown - L) <= 1e-12 * L)) return;
 const c = S.center[d], h = S.half[d], D = S.ok.length - 1;
 // Legendre columns P_0..P_D of mapped x, as core.basis.legendre_columns (cached per data)
 function basis(xs) {{

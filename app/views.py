@@ -252,7 +252,7 @@ class Workspace(param.Parameterized):
         infl = out.get("influential")
         if infl is not None and infl.any():
             rows = ", ".join(str(int(r)) for r in out["rows"][infl][:10])
-            lines.append(f"\n*Influential rows* (Cook's D > 4/n, common practice; purple in the residual plots): "
+            lines.append(f"\n*Influential rows* (Cook's D > 4/n, common practice; large blue points in the residual plots): "
                          f"{rows}. Check them; exclude one only with a reason (it is recorded).")
         if m.table is not None and m.table.excluded_rows:
             lines.append(f"\n*Excluded on request:* rows {', '.join(map(str, m.table.excluded_rows))}.")
