@@ -35,13 +35,12 @@ def _close(a, b, rtol=1e-9):
     assert worst <= rtol * scale, f"browser and server differ by {worst:.3g} (scale {scale:.3g})"
 
 
-def _move(page, handle: int, key: str, presses: int = 1):
-    """Press a key on a slider; return (first browser-made curve, server's final sources)."""
+def _move(page, handle: int, key: str):
+    """Press a key on a slider; return (the browser's sources, the server's sources)."""
     page.evaluate(ARM)
     h = page.locator("[role=slider]").nth(handle)
     h.focus()
-    for _ in range(presses):
-        page.keyboard.press(key)
+    page.keyboard.press(key)
     page.wait_for_function("() => { const c = Bokeh.documents[0].get_model_by_name('fit_curve');"
                            " return c.data !== c.__cw_data; }", timeout=20000)
     page.wait_for_timeout(400)     # the rest of the server's patch
@@ -60,9 +59,9 @@ def test_browser_fit_matches_server_for_degree_and_lambda_moves(workbench):
     lambda = 0 band agree with the server's to 1e-9 relative."""
     page = workbench
     page.wait_for_timeout(500)
-    for handle, key, presses in ((0, "ArrowRight", 1), (1, "ArrowRight", 3), (0, "ArrowLeft", 2),
-                                 (1, "Home", 1), (0, "ArrowRight", 1)):
-        first, server = _move(page, handle, key, presses)
+    for handle, key in ((0, "ArrowRight"), (1, "ArrowRight"), (1, "ArrowRight"), (0, "ArrowLeft"),
+                        (1, "Home"), (0, "ArrowRight"), (0, "ArrowRight")):
+        first, server = _move(page, handle, key)
         _close(first["fit_curve"]["y"], server["fit_curve"]["y"])
         if "resid_points" in first:
             _close(first["resid_points"]["r"], server["resid_points"]["r"])
@@ -71,6 +70,23 @@ def test_browser_fit_matches_server_for_degree_and_lambda_moves(workbench):
             assert "fit_interval" in first, "the browser did not draw the lambda = 0 band"
             _close(first["fit_interval"]["lo"], server["fit_interval"]["lo"])
             _close(first["fit_interval"]["hi"], server["fit_interval"]["hi"])
+
+
+def test_mouse_drag_redraws_at_every_step(workbench):
+    """Dragging the lambda handle redraws the curve in the browser while the button is still down."""
+    page = workbench
+    page.wait_for_timeout(500)
+    page.evaluate(ARM)
+    box = page.locator("[role=slider]").nth(1).bounding_box()
+    x, y = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
+    page.mouse.move(x, y)
+    page.mouse.down()
+    for step in range(1, 7):
+        page.mouse.move(x + 12 * step, y)
+        page.wait_for_timeout(30)
+    drawn = page.evaluate("() => window.__log.filter(e => e.name === 'fit_curve' && e.browser).length")
+    page.mouse.up()
+    assert drawn >= 3, f"only {drawn} redraws during a six-step drag"
 
 
 def test_lambda_label_reads_zero_at_left_end(workbench):
