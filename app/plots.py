@@ -237,6 +237,7 @@ class FigureSet:
         (self.fd, self.fl, self.fh), self.cx_src, self.cx_marks = make_complexity_figures()
         self.lc_fig, self.lc_src = make_learning_figure()
         self.client_src = clientside.stats_source()     # the browser's copy of the fit's factorization
+        self._rows_key = None
 
     def update_data(self, model) -> None:
         """Parts that change only with new statistics: heat map, axis labels (``model``: a
@@ -265,17 +266,29 @@ class FigureSet:
         if not out:
             return
         keep = ~out["test"]
-        self.fit_src["points"].data = {"x": out["x"][keep], "y": out["y"][keep]}
-        self.fit_src["sealed"].data = ({"x": out["x"][~keep], "y": out["y"][~keep]} if show_sealed
-                                       else {"x": [], "y": []})
-        self.fit_src["aside"].data = {"x": out["aside_x"][:4000], "y": out["aside_y"][:4000]}
+        # the rows drawn change only with the data or the reveal: not resent on every slider step
+        rows_key = (getattr(model, "data_version", None), show_sealed, out["x"].size)
+        same_rows = rows_key == self._rows_key and rows_key[0] is not None
+        if not same_rows:
+            self._rows_key = rows_key
+            self.fit_src["points"].data = {"x": out["x"][keep], "y": out["y"][keep]}
+            self.fit_src["sealed"].data = ({"x": out["x"][~keep], "y": out["y"][~keep]} if show_sealed
+                                           else {"x": [], "y": []})
+            self.fit_src["aside"].data = {"x": out["aside_x"][:4000], "y": out["aside_y"][:4000]}
         self.fit_src["curve"].data = {"x": out["grid"], "y": out["curve"]}
-        self.fit_src["band"].data = band_columns(out)
+        band = band_columns(out)
+        if same_rows and len(self.fit_src["band"].data["xs"]) == len(band["xs"]):
+            self.fit_src["band"].data.update(ys=band["ys"])        # only the changed column travels
+        else:
+            self.fit_src["band"].data = band
         iv = out.get("interval")
         self.fit_src["interval"].data = ({"x": out["grid"], "lo": iv[0], "hi": iv[1]} if iv is not None
                                          else {"x": [], "lo": [], "hi": []})
         res, hist, sd = residual_columns(out)
-        self.res_src["res"].data = res
+        if same_rows and len(self.res_src["res"].data["x"]) == len(res["x"]):
+            self.res_src["res"].data.update({k: res[k] for k in ("fitted", "r", "color", "size")})
+        else:
+            self.res_src["res"].data = res
         self.res_src["hist"].data = hist
         for up, dn in self.res_lines.values():
             up.location, dn.location = 2 * sd, -2 * sd

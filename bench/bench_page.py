@@ -39,7 +39,7 @@ ARM = """() => { window.__cw = {}; window.__cw_js = undefined; const doc = Bokeh
   const st = doc.get_model_by_name('clientside_stats');
   for (const name of %s) { const s = doc.get_model_by_name(name);
     if (!s.__cw) { s.__cw = true; s.properties.data.change.connect(() => {
-      if (st.__cw_busy) { if (name === 'fit_curve' && window.__cw_js === undefined) window.__cw_js = performance.now(); }
+      if (st && st.__cw_busy) { if (name === 'fit_curve' && window.__cw_js === undefined) window.__cw_js = performance.now(); }
       else if (window.__cw[name] === undefined) window.__cw[name] = performance.now(); }); } }
   window.__cw_t0 = performance.now(); }"""
 DONE = "() => %s.every(n => window.__cw[n] !== undefined)" % SOURCES
