@@ -41,13 +41,16 @@ from core.penalties import QUADRATIC
 
 from .session import LOG_LAMBDA_OFF
 
-__all__ = ["COLUMNS", "factorization", "attach", "LAMBDA_FORMAT", "stats_source", "fit_in_browser_js"]
+__all__ = ["COLUMNS", "factorization", "attach", "lambda_format", "stats_source", "fit_in_browser_js"]
 
 COLUMNS = ("degree", "ok", "riu", "uq", "s2", "mean", "zero", "gram", "cross", "ginv", "tq",
            "c0", "offset", "yy", "n", "center", "half")
 
-# The lambda slider moves log10(lambda); its left end means lambda = 0 exactly. Show lambda itself.
-LAMBDA_FORMAT = CustomJSTickFormatter(code=f"""
+def lambda_format() -> CustomJSTickFormatter:
+    """The lambda slider's shown value: it moves log10(lambda) and its left end means lambda = 0
+    exactly, so it shows lambda itself and "0" there. A new model per page (a Bokeh model
+    belongs to one document)."""
+    return CustomJSTickFormatter(code=f"""
 if (tick <= {LOG_LAMBDA_OFF} + 1e-9) return "0";
 const v = Math.pow(10, tick);
 return Number(v.toPrecision(2)).toString();

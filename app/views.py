@@ -63,7 +63,7 @@ class Workspace(param.Parameterized):
         m, s = self.model, self.model.session
         self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", sizing_mode="stretch_width")
         self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="Lambda (log scale; left end: 0)",
-                                                     format=clientside.LAMBDA_FORMAT, sizing_mode="stretch_width")
+                                                     format=clientside.lambda_format(), sizing_mode="stretch_width")
         self.frac = pn.widgets.FloatSlider.from_param(s.param.train_fraction, label="Training fraction",
                                                       sizing_mode="stretch_width")
         self.folds = pn.widgets.IntInput.from_param(s.param.folds, label="Folds (k)", width=90)

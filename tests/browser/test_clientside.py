@@ -113,3 +113,28 @@ def test_browser_leaves_lasso_to_the_server(workbench, penalty):
     page.keyboard.press("ArrowRight")
     log = page.evaluate("() => window.__log")
     assert not [e for e in log if e["browser"]]
+
+
+@pytest.mark.parametrize("size", [(1280, 800), (1920, 1080)])
+def test_error_plots_screenshot(workbench, artifacts, size):
+    """The error-against-flexibility tab at both sizes, saved as an artifact: the marks are the
+    current setting and the two recommendations, labelled, and every legend sits below its plot."""
+    page = workbench
+    page.set_viewport_size({"width": size[0], "height": size[1]})
+    page.get_by_text("Error vs flexibility").click()
+    page.wait_for_timeout(800)
+    labels = page.evaluate("""() => [...Bokeh.documents[0].all_models]
+        .filter(m => m.type === 'Label' && m.visible).map(m => m.text)""")
+    for word in ("now", "lowest", "simplest"):
+        assert sum(t.startswith(word) for t in labels) == 2, labels      # on both error plots
+    stars = page.evaluate("""() => [...Bokeh.documents[0].all_models]
+        .filter(m => m.type === 'Scatter' && m.marker && m.marker.value === 'star').length""")
+    assert stars == 0
+    inside = page.evaluate("""() => { const ms = [...Bokeh.documents[0].all_models], outside = new Set();
+        for (const p of ms.filter(m => Array.isArray(m.below) && Array.isArray(m.right)))
+          for (const side of ['below', 'right', 'left', 'above']) for (const r of p[side]) outside.add(r);
+        return ms.filter(m => m.type === 'Legend' && !outside.has(m)).length; }""")
+    assert inside == 0, f"{inside} legend(s) drawn over a plot area"
+    path = artifacts / f"error_plots_{size[0]}x{size[1]}.png"
+    page.screenshot(path=str(path), full_page=True)
+    assert path.stat().st_size > 10_000
