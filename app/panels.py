@@ -74,7 +74,7 @@ def numbers_md(m) -> str:
         lines.append("| – | not defined: this degree is too collinear for the chosen penalty |")
     infl = out.get("influential")
     if infl is not None and infl.any():
-        lines.append(f"\n*Influential rows* (Cook's distance above 4/n; purple in the residual plots): "
+        lines.append(f"\n*Influential rows* (Cook's distance above 4/n; large blue points in the residual plots): "
                      f"{_rows(out['rows'][infl], 10)}. Look at them; exclude one only with a reason (it is recorded).")
     if m.bias_var is not None:
         b = m.bias_var

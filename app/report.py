@@ -219,8 +219,10 @@ report by curvewright {core.__version__}</li>
 {head}
 <h2>Plots</h2>
 <p>Rows in the fit (teal), sealed test rows (purple diamonds), the curve (dark) and refits on each fold's
-training rows (grey); residuals with +/- 2 residual SD; cross-validated and training error against degree and
-lambda, with the current choice circled and the suggestions starred; the learning curve.</p>
+training rows (grey); residuals with +/- 2 residual SD (red beyond, blue for influential rows); cross-validated
+error (green line, shaded +/- 1 SE) and training error (dashed) against degree and lambda, with the current
+setting marked by a solid line and the two recommendations by labelled dashed lines (amber); the learning
+curve.</p>
 {div}
 {tables}
 </body></html>

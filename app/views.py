@@ -14,26 +14,17 @@ import threading
 
 import panel as pn
 import param
-from bokeh.models import ColumnDataSource, CustomJSTickFormatter
+from bokeh.models import ColumnDataSource
 
 from core.errors import CurvewrightError
 
-from . import plots
+from . import clientside, plots
 from .model import PageModel
 from .panels import (calibration_md, numbers_md, plain, readback_glyphs, readback_md, rows_md, suggestions_md,
                      tolerance_md)
-from .session import LOG_LAMBDA_OFF
 from .text import NO_WEIGHTS, WEIGHT_MEANINGS, learning_reading
 
 _plain = plain      # the name the tests and the report know
-
-def lambda_format():
-    """The lambda slider's label formatter: lambda itself, and exactly "0" at the left end (never the
-    position -9). A new one per page: a Bokeh model belongs to one document."""
-    return CustomJSTickFormatter(code=f"""
-    if (tick <= {LOG_LAMBDA_OFF} + 1e-9) return "0";
-    const v = Math.pow(10, tick);
-    return (v >= 1e-3 && v < 1e4) ? String(Number(v.toPrecision(2))) : v.toExponential(1);""")
 
 
 READBACK = "#3b6fb6"     # read-back marks: a colour no other mark of the page uses
@@ -75,6 +66,7 @@ class Workspace(param.Parameterized):
         self._syncing = False
         self._build_widgets()
         m.background = self._in_background if self._doc is not None else None
+        clientside.attach(self.figs, self.degree, self.lam)     # the fit redrawn in the browser, same frame
         m.param.watch(self._on_version, "version")
         m.param.watch(self._on_status, "status")
         m.param.watch(self._on_data, "data_version")
@@ -89,7 +81,7 @@ class Workspace(param.Parameterized):
         m, s = self.model, self.model.session
         sw = {"sizing_mode": "stretch_width"}
         self.degree = pn.widgets.IntSlider.from_param(s.param.degree, label="Degree", css_classes=["cw-degree"], **sw)
-        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="lambda", format=lambda_format(),
+        self.lam = pn.widgets.FloatSlider.from_param(s.param.log_lambda, label="lambda", format=clientside.lambda_format(),
                                                      css_classes=["cw-lambda"], **sw)
         # the training fraction rebuilds the statistics: it applies once the slider is released
         p = s.param.train_fraction

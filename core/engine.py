@@ -225,7 +225,7 @@ class ScoringEngine(ABC):
         got = cache.get((key, degree))
         if got is None:
             (xt, yt, wt), (xh, yh, wh) = self.own[key].rows
-            leg = least_squares_rows(xt, yt, wt, degree, self.intercept, solver.domain)[0]
+            leg = least_squares_rows(xt, yt, wt, degree, self.intercept, solver.domain, power=False)[0]
             theta = leg.copy()
             theta[0] -= solver.offset
             curve = solver.curve(theta)
