@@ -137,7 +137,7 @@ class PageActions:
                 self.learning, self.learning_note = None, f"No learning curve for this setting: {result}"
             else:
                 self.learning, self.learning_note = result, "" if quadratic else LEARNING_UNPENALIZED
-            self.version += 1
+            self.learning_version += 1      # not ``version``: that would redraw the fit of a setting the user left
 
         self.busy = True
         if self.background is None or x.size < LEARNING_IN_BACKGROUND:

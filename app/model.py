@@ -54,6 +54,7 @@ class PageModel(PageActions, PageUses, param.Parameterized):
     busy = param.Boolean(False)
     version = param.Integer(0, doc="bumped after every recompute; views watch it")
     data_version = param.Integer(0, doc="bumped when data, folds or penalty change")
+    learning_version = param.Integer(0, doc="bumped when the learning curve arrives (it may finish after the\n                                     setting moved on: only the learning views follow it)")
 
     def __init__(self, session: Session, path=None, *, stats=None, **params):
         super().__init__(**params)

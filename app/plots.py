@@ -304,6 +304,10 @@ class FigureSet:
         _show_drawn(self.fl)
         self.lc_src.data = learning_columns(model.learning)
 
+    def update_learning(self, model) -> None:
+        """The learning curve alone (it can arrive after the setting has moved on)."""
+        self.lc_src.data = learning_columns(model.learning)
+
     def _mark(self, out: dict, surface, lam_axis) -> None:
         """Place the current-setting and recommendation marks on both error plots."""
         lam_axis = np.asarray(lam_axis, dtype=float)

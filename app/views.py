@@ -71,6 +71,7 @@ class Workspace(param.Parameterized):
         m.param.watch(self._on_status, "status")
         m.param.watch(self._on_data, "data_version")
         m.param.watch(self._on_uses, "uses_version")
+        m.param.watch(self._on_learning, "learning_version")
         self._on_data()
         self._on_version()
         self._on_status()
@@ -312,6 +313,11 @@ class Workspace(param.Parameterized):
             self.tol_text.object = tolerance_md(m)
             self.calib.object = calibration_md(m)
             self.rb_src.data = readback_glyphs(m)
+
+    def _on_learning(self, *_):
+        with pn.io.unlocked():
+            self.figs.update_learning(self.model)
+            self.lc_text.object = self._learning_md()
 
     def _learning_md(self) -> str:
         m = self.model

@@ -43,7 +43,11 @@ def _move(page, handle: int, key: str):
     page.keyboard.press(key)
     page.wait_for_function("() => { const c = Bokeh.documents[0].get_model_by_name('fit_curve');"
                            " return c.data !== c.__cw_data; }", timeout=20000)
-    page.wait_for_timeout(400)     # the rest of the server's patch
+    # the server's answer, then quiet: under load an answer to the previous key can arrive first, so
+    # wait until the server has answered and nothing has changed for half a second
+    page.wait_for_function("""() => { const log = window.__log;
+        if (!log.some(e => e.name === 'fit_curve' && !e.browser)) return false;
+        return performance.now() - log[log.length - 1].t > 500; }""", timeout=30000)
     log = page.evaluate("() => window.__log")
     first = {e["name"]: e["data"] for e in log if e["browser"]}     # the browser's last estimate per source
     assert "fit_curve" in first, "the browser did not redraw the curve on the key press"
