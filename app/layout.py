@@ -33,7 +33,7 @@ def guide(ws):
 def page_layout(ws):
     """The whole page for a ``app.views.Workspace``."""
     side = pn.Column(
-        _section("Data", ws.upload, pn.Row(ws.xcol, ws.ycol, sizing_mode="stretch_width"),
+        _section("Data", ws.upload, ws.upload_note, pn.Row(ws.xcol, ws.ycol, sizing_mode="stretch_width"),
                  pn.Row(ws.xt, ws.yt, sizing_mode="stretch_width"),
                  pn.Row(ws.wcol, ws.wkind, sizing_mode="stretch_width"), ws.weight_meaning,
                  pn.Row(ws.gcol, ws.fcol, sizing_mode="stretch_width"), ws.exclude),

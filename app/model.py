@@ -182,6 +182,12 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         self._temp_names[Path(fh.name).name] = filename
         return self.load_path(fh.name, name=filename, propose=True)
 
+    def close(self) -> None:
+        """Delete this page's temporary copies of uploaded files (when its browser session ends)."""
+        for tmp in list(self._temp_names):
+            Path(tempfile.gettempdir(), tmp).unlink(missing_ok=True)
+            del self._temp_names[tmp]
+
     def select_columns(self, x: str, y: str, weights: str = "") -> bool:
         """Use other columns of the loaded file (the same as setting them on the session)."""
         s = self.session

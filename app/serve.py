@@ -23,6 +23,8 @@ def build_page(path=None, stats=None):
     """
     big = path is not None and stats is None and should_stream(path)
     model = PageModel(Session(), stats=stats)
+    if pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
+        pn.state.on_session_destroyed(lambda _ctx: model.close())    # uploaded copies go with the session
     page = Workspace(model).panel()
     if not (stats or big):
         # loaded once the page is connected, so the slower work after it (the curve's covariance for
@@ -57,7 +59,7 @@ def serve(path=None, *, port: int = 5006, show: bool = True, address: str = "127
     if path is not None and not Path(path).is_file():
         from core.errors import DataError, message
         raise DataError(message(f"File '{path}'", "an existing file", "nothing at that path"))
-    pn.extension(notifications=False)
+    pn.extension("filedropper", notifications=False)
     if stats is not None and not Path(stats).is_file():
         from core.errors import DataError, message
         raise DataError(message(f"Statistics file '{stats}'", "an existing file", "nothing at that path"))

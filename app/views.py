@@ -16,6 +16,7 @@ import panel as pn
 import param
 from bokeh.models import ColumnDataSource
 
+from core import defaults
 from core.errors import CurvewrightError
 
 from . import clientside, plots
@@ -99,7 +100,13 @@ class Workspace(param.Parameterized):
                                                   **sw)
         self.test = pn.widgets.FloatSlider.from_param(s.param.test_fraction, label="Sealed-test fraction",
                                                       css_classes=["cw-sealed"], **sw)
-        self.upload = pn.widgets.FileInput(accept=".csv,.tsv,.txt,.xlsx,.parquet", **sw)
+        # chunked upload (never one websocket message above its limit) with the size refused in the browser
+        self.upload = pn.widgets.FileDropper(accepted_filetypes=[".csv", ".tsv", ".txt", ".xlsx", ".parquet"],
+                                             max_file_size=f"{defaults.UPLOAD_MB}MB", multiple=False,
+                                             css_classes=["cw-upload"], **sw)
+        self.upload_note = pn.pane.Markdown(
+            f"Files up to {defaults.UPLOAD_MB} MB. A larger file is opened from disk with "
+            "`curvewright open FILE`, which reads it in chunks.", sizing_mode="stretch_width", margin=(0, 10))
         self.upload.param.watch(self._on_upload, "value")
         self.xcol = pn.widgets.Select(name="x column", css_classes=["cw-xcol"], **sw)
         self.ycol = pn.widgets.Select(name="y column", css_classes=["cw-ycol"], **sw)
@@ -214,8 +221,9 @@ class Workspace(param.Parameterized):
             self.progress_text.visible = bool(s.progress_text)
 
     def _on_upload(self, event):
-        if event.new:
-            self.model.load_bytes(event.new, self.upload.filename or "upload.csv")
+        for name, data in (event.new or {}).items():
+            # the dropper hands text files over decoded when they are UTF-8: encode them back, byte for byte
+            self.model.load_bytes(data.encode("utf-8") if isinstance(data, str) else data, name)
 
     def _on_settle(self, _):
         # the slider's own value may arrive in the same message: read the session on the next tick

@@ -10,7 +10,7 @@ import numpy as np
 
 __all__ = ["MAX_DEGREE", "DEGREES", "PENALTY", "LAMBDA_PER_DECADE", "LAMBDA_MARGIN", "LAMBDA_RANGE",
            "FOLDS", "REPEATS", "SEED",
-           "TEST_FRACTION", "STREAM_BYTES", "CHUNK_ROWS", "LEARN_SIZES", "LEARN_REPEATS",
+           "TEST_FRACTION", "STREAM_BYTES", "UPLOAD_MB", "CHUNK_ROWS", "LEARN_SIZES", "LEARN_REPEATS",
            "BOOTSTRAP_B", "COVERAGE", "MAX_GRID", "MAX_CELLS"]
 
 MAX_DEGREE = 30                  # highest polynomial degree anywhere
@@ -28,6 +28,8 @@ REPEATS = 1
 SEED = 0
 TEST_FRACTION = 0.2              # share of rows sealed away before cross-validation
 STREAM_BYTES = 100 * 2**20       # CSV/TSV/Parquet files above this are streamed in chunks
+UPLOAD_MB = 100                  # the page takes uploads up to this size (sent in 10 MB chunks); larger files
+                                 # are opened from disk, where they are streamed
 CHUNK_ROWS = 500_000             # rows per chunk when streaming
 LEARN_SIZES = tuple(np.round(np.linspace(0.1, 1.0, 10), 10))
 LEARN_REPEATS = 3

@@ -269,3 +269,19 @@ def test_model_modules_import_no_ui_package():
             "print(','.join(m for m in ('panel', 'bokeh') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=ROOT)
     assert out.stdout.strip() == ""
+
+
+def test_uploaded_copies_are_deleted_when_the_page_closes():
+    """An upload is kept as a temporary copy while the page may re-read its columns; closing the page (the
+    browser session ending) deletes every copy, and messages never named them."""
+    import tempfile
+
+    m = PageModel(Session())
+    assert m.load_bytes(b"load [kN],deflection [mm]\n1,0.5\n2,1.1\n3,1.4\n4,2.1\n5,2.4\n6,3.1\n7,3.4\n8,4.2\n"
+                        b"9,4.4\n10,5.1\n11,5.5\n12,6.1\n", "beam.csv")
+    assert m.load_bytes(b"x,y\n1,2\n2,n/a\n", "broken.csv") is False
+    copies = [Path(tempfile.gettempdir(), t) for t in m._temp_names]
+    assert len(copies) == 2 and all(p.exists() for p in copies)
+    assert "broken.csv" in m.status and not any(p.name in m.status for p in copies)
+    m.close()
+    assert not any(p.exists() for p in copies)

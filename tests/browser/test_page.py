@@ -126,6 +126,34 @@ def test_file_names_in_the_status_stay_plain_text(workbench, tmp_path):
     assert page.locator("em", has_text="draft").count() == 0
 
 
+def test_an_upload_above_the_size_limit_is_refused_in_the_browser(page, app_url, tmp_path, monkeypatch):
+    """An upload above the stated size never reaches the server (it would close the connection): the browser
+    refuses it, the page keeps answering and its data stay. The limit is lowered to 1 MB for this page."""
+    from core import defaults
+
+    monkeypatch.setattr(defaults, "UPLOAD_MB", 1)
+    page.set_viewport_size({"width": 1500, "height": 1100})
+    page.goto(app_url)
+    page.wait_for_function("() => window.Bokeh && Bokeh.documents.length > 0 && Bokeh.documents[0]"
+                           ".get_model_by_name('fit_curve') && Bokeh.documents[0].get_model_by_name('fit_curve')"
+                           ".data.y.length > 0", timeout=30000)
+    page.get_by_text("Files up to 1 MB").wait_for()
+    big = tmp_path / "big.csv"
+    rows = "\n".join(f"{i},{i * 0.5}" for i in range(200_000))
+    big.write_text("x,y\n" + rows + "\n")
+    assert big.stat().st_size > 2**20
+    before = curve(page)
+    page.locator("input[type=file]").set_input_files(str(big))
+    page.get_by_text("File is too large", exact=True).wait_for(timeout=10000)
+    page.wait_for_timeout(500)
+    assert page.get_by_text("Loaded big.csv").count() == 0
+    np.testing.assert_array_equal(curve(page), before)
+    page.locator("[role=slider]").first.focus()            # the page still answers
+    page.keyboard.press("ArrowRight")
+    page.wait_for_function(f"() => Bokeh.documents[0].get_model_by_name('fit_curve').data.y[0] !== {float(before[0])!r}",
+                           timeout=15000)
+
+
 def test_export_downloads_schema_valid_json(workbench, tmp_path):
     """Export downloads a choice file that matches the schema and records the rule and the file."""
     page = workbench
