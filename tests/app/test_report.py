@@ -142,3 +142,26 @@ def test_report_of_a_curve_in_transformed_variables(tmp_path):
     assert main(["report", str(choice), str(THERMISTOR), "--out", str(out)]) == 0
     doc = json.loads(choice.read_text())
     assert float(field(out.read_text(), "cv_rmse")[0]) == pytest.approx(doc["validation"]["cv_rmse"], rel=1e-9)
+
+
+HOSTILE = '<img src=x onerror="alert(1)">'
+
+
+def test_user_text_in_a_report_is_escaped(tmp_path):
+    """Column names, the file name and the notes carry markup: the report shows them as text (html.escape),
+    so no element or handler of the user's text exists in the file."""
+    data = tmp_path / "run_<b>1<b>.csv"
+    rng = __import__("numpy").random.default_rng(4)
+    x = rng.uniform(0, 10, 40)
+    y = 1 + 0.5 * x + rng.normal(0, 0.1, 40)
+    data.write_text(f"{HOSTILE} [kN],y<script>alert(2)</script>\n"
+                    + "".join(f"{a:.6f},{b:.6f}\n" for a, b in zip(x, y)))
+    choice, out = tmp_path / "c.json", tmp_path / "r.html"
+    assert main(["sweep", str(data), "--x", "1", "--y", "2", "--degrees", "0-2", "--save", str(choice),
+                 "--notes", f"checked by {HOSTILE}"]) == 0
+    assert main(["report", str(choice), str(data), "--out", str(out)]) == 0
+    text = out.read_text()
+    body = re.sub(r"<script[^>]*>.*?</script>", "", text, flags=re.S)     # Bokeh's own scripts
+    assert "<img" not in body and "onerror=\"" not in body and "<b>1<b>" not in body
+    assert "&lt;img src=x onerror=&quot;alert(1)&quot;&gt;" in body
+    assert "alert(2)</script>" not in text.replace("<\\/script>", "")

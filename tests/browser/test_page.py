@@ -198,3 +198,27 @@ def test_report_button_downloads_standalone_html(workbench, tmp_path):
     text = path.read_text()
     assert text.startswith("<!DOCTYPE html>") and "Curve report" in text
     assert "static/extensions/panel" not in text     # no page-server resources: opens offline
+
+
+def test_markup_in_columns_and_cells_never_runs(workbench, tmp_path):
+    """A file whose column names and cells carry script (an image with an error handler) is loaded and
+    refused cell by cell: every text shows as text, and no dialog ever opens (the handler would raise one)."""
+    page = workbench
+    dialogs = []
+    page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
+    bad = tmp_path / "probe.csv"
+    hostile = '<img src=x onerror="alert(7)">'
+    rows = "".join(f"{i},{0.5 * i + 0.01 * (i % 3)}\n" for i in range(1, 30))
+    bad.write_text(f"{hostile} [kN],response<svg onload=alert(8)>\n{rows}3,{hostile}\n")
+    page.locator("input[type=file]").set_input_files(str(bad))
+    page.get_by_text("Could not load probe.csv").wait_for(timeout=15000)
+    page.wait_for_timeout(1000)
+    assert page.locator("img[src=x]").count() == 0 and page.locator("svg[onload]").count() == 0
+    good = tmp_path / "probe2.csv"
+    good.write_text(f"{hostile} [kN],response<svg onload=alert(8)>\n{rows}")
+    page.locator("input[type=file]").set_input_files(str(good))
+    page.get_by_text("Loaded probe2.csv").first.wait_for(timeout=15000)
+    page.wait_for_timeout(1500)
+    assert page.locator("img[src=x]").count() == 0 and page.locator("svg[onload]").count() == 0
+    assert page.locator("option", has_text="onerror").count() >= 1      # the column name, as text
+    assert dialogs == []
