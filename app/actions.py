@@ -143,7 +143,7 @@ class PageActions:
         if self.background is None or x.size < LEARNING_IN_BACKGROUND:
             done(work())
         else:
-            self.background(work, done)       # about 0.1 s per 100 000 rows: off the page's thread
+            self.background(work, done, slot="learning", rest=0.3)   # ~0.1 s per 100 000 rows: off the page's thread
 
     def reveal_test(self) -> float | None:
         """Score the sealed test set for the current setting (recorded in the export)."""

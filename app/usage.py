@@ -27,7 +27,7 @@ class PageUses(param.Parameterized):
 
     def __init__(self, **params):
         super().__init__(**params)
-        self.background = None         # callable(work, done) set by the page, or None: run at once
+        self.background = None         # callable(work, done, slot=...) set by the page, or None: run at once
         self.use_choice = None         # the choice of the setting the uses were computed for
         self.readback: list[dict] = []
         self.readback_problem = ""
@@ -68,7 +68,7 @@ class PageUses(param.Parameterized):
         if self.background is None:
             self._set_choice(work(), key)
         else:
-            self.background(work, lambda result: self._set_choice(result, key))
+            self.background(work, lambda result: self._set_choice(result, key), slot="uses", rest=0.8)
 
     def _set_choice(self, result, key) -> None:
         if key != self._use_key:        # a newer setting has been asked for meanwhile

@@ -11,6 +11,7 @@ from __future__ import annotations
 import io
 import json
 import threading
+import time
 
 import panel as pn
 import param
@@ -65,6 +66,7 @@ class Workspace(param.Parameterized):
                                             css_classes=["cw-suggestions"])
         self._doc, self._thread = pn.state.curdoc, threading.get_ident()
         self._syncing = False
+        self._bg_lock, self._bg_running, self._bg_next = threading.Lock(), set(), {}
         self._build_widgets()
         m.background = self._in_background if self._doc is not None else None
         clientside.attach(self.figs, self.degree, self.lam)     # the fit redrawn in the browser, same frame
@@ -196,14 +198,37 @@ class Workspace(param.Parameterized):
         except CurvewrightError as exc:
             self.model.status = str(exc)
 
-    def _in_background(self, work, done):
-        """Run ``work()`` in a thread and ``done(result)`` on this page's own thread."""
-        doc = self._doc
+    def _in_background(self, work, done, slot: str = "work", rest: float = 0.0):
+        """Run ``work()`` in a thread and ``done(result)`` on this page's own thread.
 
-        def run():
-            result = work()
-            doc.add_next_tick_callback(lambda: done(result))
-        threading.Thread(target=run, daemon=True).start()
+        One thread per ``slot`` at most: a request that arrives while its slot is busy waits as the
+        slot's only queued job (a newer one replaces it), so a run of slider presses costs one
+        computation in flight and one to come, never one thread per press."""
+        doc = self._doc
+        with self._bg_lock:
+            if slot in self._bg_running:
+                self._bg_next[slot] = (work, done)
+                return
+            self._bg_running.add(slot)
+
+        def run(work, done):
+            while True:
+                if rest:
+                    time.sleep(rest)
+                    with self._bg_lock:
+                        queued = self._bg_next.pop(slot, None)
+                    if queued is not None:
+                        work, done = queued
+                        continue
+                result = work()
+                doc.add_next_tick_callback(lambda done=done, result=result: done(result))
+                with self._bg_lock:
+                    queued = self._bg_next.pop(slot, None)
+                    if queued is None:
+                        self._bg_running.discard(slot)
+                        return
+                work, done = queued
+        threading.Thread(target=run, args=(work, done), daemon=True).start()
 
     # ---- events -------------------------------------------------------------------
     def _on_progress(self, *_):
