@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import html
 import math
+import warnings
+import re
 from pathlib import Path
 
 import numpy as np
@@ -131,9 +133,21 @@ def _calibration_html(doc: dict) -> str:
     return "<h2>Calibration checks</h2><ul>" + "".join(parts) + "</ul>"
 
 
+def _pass_on_warnings(caught, degree: int) -> None:
+    """Re-derive the whole surface quietly: pass on only the warnings about the chosen curve's degree
+    (or naming none), not about other degrees of the grid the choice did not take."""
+    for w in caught:
+        named = {int(d) for d in re.findall(r"\bdegree[- ](\d+)\b", str(w.message))}
+        if not named or degree in named:
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+
+
 def build_report(choice: Choice, data_path) -> str:
     """The report as an HTML string (see module docstring)."""
-    model = _model_for(choice, data_path)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        model = _model_for(choice, data_path)
+    _pass_on_warnings(caught, choice.doc["model"]["degree"])
     doc = choice.doc
     m, v, d = doc["model"], doc["validation"], doc["data"]
     figs = plots.FigureSet(d["x_column"], d["y_column"])

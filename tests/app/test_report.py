@@ -109,13 +109,18 @@ def test_report_of_a_page_choice_rederives_it_through_the_page_model(tmp_path):
 ASSAY = ROOT / "sample_sets" / "assay_calibration.csv"
 
 
-def test_report_shows_the_files_lack_of_fit_and_limits(tmp_path):
+def test_report_shows_the_files_lack_of_fit_and_limits(tmp_path, capsys):
     """An assay calibration with replicates and a blank: the report's calibration section prints the choice
     file's own lack-of-fit F and both detection limits (ICH Q2(R2) and Hubaux & Vos 1970), rounded to 6 digits."""
     choice, out = tmp_path / "a.json", tmp_path / "a.html"
     assert main(["sweep", str(ASSAY), "--x", "conc", "--y", "signal", "--uncertainty", "u_signal", "--degrees", "0-3",
                  "--save", str(choice)]) == 0
+    capsys.readouterr()
     assert main(["report", str(choice), str(ASSAY), "--out", str(out)]) == 0
+    degree = json.loads(choice.read_text())["model"]["degree"]
+    other = [line for line in capsys.readouterr().err.splitlines()
+             if "degree-" in line and f"degree-{degree} " not in line]
+    assert other == [], "the report warned about degrees the choice did not take"
     cal = json.loads(choice.read_text())["calibration"]
     html = out.read_text()
     assert float(field(html, "lof_F")[0]) == pytest.approx(cal["lack_of_fit"]["F"], rel=1e-5)
