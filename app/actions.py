@@ -17,7 +17,7 @@ import param
 import core
 from core import defaults
 from core.choice_build import make_choice, rule_of
-from core.errors import CurvewrightError
+from core.errors import CurvewrightError, ParameterError, message
 from core.table import unit_of
 
 from .names import download_name
@@ -175,6 +175,14 @@ class PageActions:
                     "x_unit": unit_of(m.get("x_column") or ""), "y_unit": unit_of(m.get("y_column") or "")}
             return (None, None, self.surface, d, lam), dict(rule=rule, data=data, notes=notes,
                                                             version=core.__version__)
+        if self.session.train_fraction < 1:
+            # the choice file has no field for rows set aside by this slider: a curve fitted on a share
+            # of the rows would travel without saying so, and the report could not re-derive it
+            raise ParameterError(message(
+                "Training fraction", "1 for a choice to export or use",
+                f"{self.session.train_fraction:g}",
+                "The training fraction shows how the curve changes with fewer rows; set it back to 1 "
+                "to export the curve, read back or check a tolerance"))
         x, y, w = self.plan_rows()
         keep = self.plan_keep()
         data = {"file": self.display_name, "file_sha256": t.file_sha256, "columns_sha256": t.columns_sha256,

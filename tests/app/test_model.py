@@ -285,3 +285,16 @@ def test_uploaded_copies_are_deleted_when_the_page_closes():
     assert "broken.csv" in m.status and not any(p.name in m.status for p in copies)
     m.close()
     assert not any(p.exists() for p in copies)
+
+
+def test_a_curve_fitted_on_a_share_of_the_rows_is_not_exported(page):
+    """The choice file has no field for rows set aside by the training-fraction slider: below 1 the export
+    is refused with the reason and the fix (never a curve from half the rows passed off as from all), and
+    at 1 again it is exported from every kept row."""
+    s, m = page
+    s.train_fraction = 0.5
+    with pytest.raises(core.errors.ParameterError, match="Training fraction: expected 1 for a choice"):
+        m.choice()
+    s.train_fraction = 1.0
+    doc = json.loads(m.choice().to_json())
+    assert doc["data"]["rows_used"] == m.engine.n_train == 60 - m.engine.n_test     # every non-sealed row
