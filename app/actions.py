@@ -40,6 +40,7 @@ class PageActions:
             s.degree = rec.degree
             s.log_lambda = LOG_LAMBDA_OFF if rec.lam == 0 else max(LOG_LAMBDA_OFF + 0.01, math.log10(rec.lam))
         self.status = f"Jumped to the {rule} recommendation: degree {rec.degree}, lambda {rec.lam:.3g}."
+        self.settle()      # a jump is a slider at rest: the learning curve and the uses follow it
 
     def bootstrap_band(self, B: int = 200) -> None:
         """Percentile prediction band from B bootstrap refits for the current setting."""

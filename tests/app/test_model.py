@@ -298,3 +298,20 @@ def test_a_curve_fitted_on_a_share_of_the_rows_is_not_exported(page):
     s.train_fraction = 1.0
     doc = json.loads(m.choice().to_json())
     assert doc["data"]["rows_used"] == m.engine.n_train == 60 - m.engine.n_test     # every non-sealed row
+
+
+def test_a_jump_to_a_recommendation_brings_the_learning_curve_and_the_uses_along():
+    """After a suggestion button the learning curve, the read-back and the calibration figures belong to the
+    recommended setting, not the one before (the read-back equals Choice.invert of that setting's choice)."""
+    s = Session(readings="0.2\n0.5")
+    m = PageModel(s, ROOT / "sample_sets" / "assay_calibration.csv")
+    s.degree, s.log_lambda = 5, -1.0
+    m.settle()
+    for rule in ("simplest", "lowest"):
+        m.recommend(rule)
+        rec = m.surface.recommended[rule]
+        assert m.learning.degree == rec.degree and m.learning.lam == pytest.approx(rec.lam)
+        assert m.use_choice.doc["model"]["degree"] == rec.degree
+        assert m.use_choice.doc["model"]["lambda"] == pytest.approx(rec.lam, rel=1e-9)
+        fresh = m.choice().invert([0.2, 0.5])
+        assert [r["x_estimate"] for r in m.readback] == pytest.approx(list(fresh.x_estimate), rel=1e-12)
