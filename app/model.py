@@ -287,7 +287,8 @@ class PageModel(PageActions, PageUses, param.Parameterized):
         self._sync_session(table)
         # what was loaded stays in view: a proposal and a numerical note are added to it, not put in its place
         self.status = problem or " ".join(t for t in (loaded_text(self.display_name, table), note,
-                                                      f"Note: {notes[0]}" if notes else "") if t)
+                                                      f"Note on the error surface (all degrees and lambdas): {notes[0]}"
+                                                      if notes else "") if t)
         self._commit(*built)
         return True
 

@@ -17,7 +17,8 @@ def learning_reading(lc) -> str:
 
     Read off the last three sizes: the gap is (held-out - fitted) / held-out error at full size;
     the slope is the relative fall of the held-out error from the third-last to the last size.
-    Gap above 1/4: the setting bends to this sample's noise. Fall above 5%: more rows still pay.
+    Gap above 1/4 and above 1.5 times what pure noise gives a curve of this many terms
+    (``SizeCurve.expected_gap``): the setting probably bends to this sample's noise. Fall above 5%: more rows still pay.
     Otherwise the curve has flattened: rows of the same kind will not help much.
     """
     ok = [i for i in range(len(lc.cv_mse)) if math.isfinite(lc.cv_mse[i]) and math.isfinite(lc.train_mse[i])]
@@ -29,10 +30,12 @@ def learning_reading(lc) -> str:
     before = lc.cv_mse[ok[-3]]
     fall = 1.0 - cv / before if before > 0 else 0.0
     parts = []
-    if gap > 0.25:
-        parts.append(f"On rows it has not seen, this setting errs {100 * gap:.0f}% more (mean square) than on "
-                     "the rows it was fitted to: it bends to this sample's noise. A stiffer setting, or more "
-                     "rows, would narrow the gap.")
+    allowed = lc.expected_gap() if hasattr(lc, "expected_gap") else 0.0
+    if gap > max(0.25, 1.5 * allowed):
+        parts.append(f"On rows it has not seen, this setting's mean square error is {100 * gap:.0f}% above its "
+                     "error on the rows it was fitted to" + (f", where pure noise would give a curve of this many "
+                     f"terms about {100 * allowed:.0f}%" if allowed else "") + ": it probably bends to this "
+                     "sample's noise. A stiffer setting, or more rows, would narrow the gap.")
     if fall > 0.05:
         parts.append(f"The held-out error still fell {100 * fall:.0f}% over the last sizes: more rows of the "
                      "same kind should still help.")

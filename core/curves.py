@@ -68,11 +68,21 @@ class SizeCurve:
                 "repeats": self.repeats, "seed": self.seed,
                 "reading": self.reading()}
 
+    def expected_gap(self) -> float:
+        """The gap (e_cv - e_fit) / e_cv a least-squares curve with p = degree + 1 terms shows on pure
+        noise with n training rows: the optimism 2 p sigma^2 / n of the training error (Hastie,
+        Tibshirani & Friedman, ESL sec. 7.4) gives e_fit = sigma^2 (1 - p/n), e_cv = sigma^2 (1 + p/n),
+        so 2p / (n + p). A penalty only lowers p, so this is an upper allowance."""
+        p = self.degree + 1
+        n = float(self.n_train[-1]) if len(self.n_train) else 0.0
+        return 2.0 * p / (n + p) if n > 0 else 0.0
+
     def reading(self) -> str:
         """One sentence on whether more measurements would help, read off the last points.
 
         The rule (stated so it can be checked): with e_cv and e_fit the CV and training
-        MSE at full size, if (e_cv - e_fit) / e_cv > 0.25 the setting follows noise;
+        MSE at full size, if (e_cv - e_fit) / e_cv exceeds both 0.25 and 1.5 times the gap
+        pure noise gives a curve of this many terms (``expected_gap``) the setting follows noise;
         otherwise, if CV MSE at full size is more than 3% below its value half-way
         along the sizes, it is still dropping; otherwise both have levelled off.
         Guidance, not a certainty.
@@ -85,10 +95,12 @@ class SizeCurve:
         gap = (cv[-1] - tr[-1]) / cv[-1] if cv[-1] > 0 else 0.0
         half = max(1, len(cv) // 2)
         drop = 1.0 - cv[-1] / cv[half - 1] if cv[half - 1] > 0 else 0.0
-        if gap > 0.25:
-            return (f"At full size this setting misses held-out rows by {100 * gap:.0f}% more (in MSE) than "
-                    "the rows it was fitted to: it is following noise in the sample. More measurements would "
-                    "close that gap; so would a stiffer setting (lower degree or larger lambda).")
+        allowed = self.expected_gap()
+        if gap > max(0.25, 1.5 * allowed):
+            return (f"At full size the held-out error is {100 * gap:.0f}% above the fitted error (share of the "
+                    f"held-out MSE), where pure noise would give a curve of this many terms about "
+                    f"{100 * allowed:.0f}%: it is probably following noise in the sample. More measurements "
+                    "would close that gap; so would a stiffer setting (lower degree or larger lambda).")
         if drop > 0.03:
             return (f"Held-out error was still dropping at full size ({100 * drop:.0f}% lower than half-way "
                     "along): more measurements of the same kind would probably improve this curve.")

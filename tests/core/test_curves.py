@@ -109,3 +109,17 @@ def test_learning_curve_refuses_the_lasso():
     x, y = invented(100)
     with pytest.raises(core.ParameterError, match="Penalty of a learning curve"):
         core.size_curve(x, y, 3, 0.1, penalty="lasso")
+
+
+def test_a_gap_that_pure_noise_explains_is_not_called_noise_following():
+    """A degree-3 curve on 8 training rows per fold: pure noise alone gives a gap of 2p/(n+p) = 8/12 (ESL
+    sec. 7.4 optimism, p = 4); a gap of 0.5 is within it and is not read as following noise, while the same
+    gap on 400 rows (allowance 8/404) is."""
+    cv, tr = [4.0, 3.0, 2.0, 2.0], [1.0, 1.0, 1.0, 1.0]
+    small = core.SizeCurve(3, 0.0, np.linspace(0.1, 1, 4), np.array([2, 4, 6, 8.0]), np.array(tr), np.zeros(4),
+                           np.array(cv), np.zeros(4), 5, 1, 0)
+    large = core.SizeCurve(3, 0.0, np.linspace(0.1, 1, 4), np.array([100, 200, 300, 400.0]), np.array(tr),
+                           np.zeros(4), np.array(cv), np.zeros(4), 5, 1, 0)
+    assert small.expected_gap() == pytest.approx(8 / 12) and large.expected_gap() == pytest.approx(8 / 404)
+    assert "following noise" not in small.reading().lower()
+    assert "following noise" in large.reading().lower()
