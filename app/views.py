@@ -156,10 +156,16 @@ class Workspace(param.Parameterized):
         self.replicates = pn.widgets.IntInput.from_param(s.param.replicates, label="A single reading is the mean of",
                                                          **sw)
         self.tolerance = pn.widgets.FloatInput.from_param(s.param.tolerance, label="Tolerance (0: no check)",
+                                                          description="Checks the rows of this fit (the cross-validation "
+                                                          "rows, and the sealed rows once revealed): |y - curve| at "
+                                                          "most this, in y units or as a share. Not the pasted readings.",
                                                           step=0.01, css_classes=["cw-tolerance-input"], **sw)
         self.tol_rel = pn.widgets.Checkbox.from_param(s.param.tolerance_relative,
                                                       label="Tolerance is a share of the prediction", **sw)
-        self.tol_rule = pn.widgets.Select.from_param(s.param.tolerance_rule, label="Decision rule", **sw)
+        self.tol_rule = pn.widgets.Select.from_param(s.param.tolerance_rule, label="Decision rule",
+                                                     description="simple: pass when |error| <= tolerance. guarded: pass "
+                                                     "only when |error| <= tolerance - U, U = 2u the expanded "
+                                                     "uncertainty of the error (ILAC-G8).", **sw)
         self.progress = pn.indicators.Progress(value=0, max=1000, visible=False, name="progress", **sw)
         self.progress_text = pn.pane.Str("", visible=False)
         m.param.watch(self._on_progress, ["progress", "progress_text"])
