@@ -98,39 +98,26 @@ def _notices(choice: Choice, model: PageModel, infl) -> list[str]:
 
 
 def _calibration_html(doc: dict) -> str:
-    """Lack of fit and detection limits as the choice file records them (nothing recomputed here:
-    the numbers are the file's own, each with its method)."""
-    cal = doc.get("calibration") or {}
-    weighted = (doc["model"].get("weighting") or {}).get("kind") == "uncertainty"
-    parts = []
-    lof = cal.get("lack_of_fit")
-    if lof:
-        verdict = ("the curve misses a trend the replicates resolve" if lof["p_value"] < 0.01 else
-                   "no lack of fit detected at the 1% level")
-        parts.append(f"<li>Lack of fit against the replicates' own scatter: F = <b data-field='lof_F'>{_f(lof['F'])}</b> "
-                     f"on ({_f(lof['df_lack'], 4)}, {lof['df_pure']}) degrees of freedom, p = {_f(lof['p_value'], 3)}: "
-                     f"{verdict}; " + (f"replicates scatter {_f(lof['pure_error_sd'], 4)} times the stated "
-                                       "uncertainties (near 1: as stated)" if weighted else
-                                       f"pure-error SD {_f(lof['pure_error_sd'])} (the noise floor for the CV RMSE)")
-                     + ".</li>")
-    else:
-        parts.append("<li>Lack of fit: not tested (no x value is repeated, so there is no pure error to compare "
-                     "against).</li>")
-    lim = cal.get("limits") or {}
-    ich, hv = lim.get("ich_q2"), lim.get("hubaux_vos")
-    if ich:
-        parts.append(f"<li>{html.escape(ich['method'])}: sigma {_f(ich['sigma'])} ({html.escape(ich['sigma_from'])}), "
-                     f"slope {_f(ich['slope'])}; detection limit <b data-field='ich_dl'>{_f(ich['detection_limit'])}</b>, "
-                     f"quantitation limit {_f(ich['quantitation_limit'])}.</li>")
-    if hv:
-        parts.append(f"<li>{html.escape(hv['method'])} (alpha = {hv['alpha']}, beta = {hv['beta']}): decision level "
-                     f"{_f(hv['decision_level_y'])} in y (x {_f(hv['decision_limit_x'])}), detection limit "
-                     f"<b data-field='hv_dl'>{_f(hv['detection_limit_x'])}</b>.</li>")
-    if lim.get("note"):
-        parts.append(f"<li>Limits: {html.escape(lim['note'])}</li>")
-    elif not (ich or hv):
-        parts.append("<li>Detection limits: not given (the calibrated range does not include a blank, x = 0).</li>")
-    return "<h2>Calibration checks</h2><ul>" + "".join(parts) + "</ul>"
+    """Lack of fit and detection limits as the choice file records them, in the page's sentences
+    (``app.uses.calibration_lines``), escaped, with the key numbers tagged for checking."""
+    from .uses import calibration_lines
+
+    tags = {}
+
+    def mark(name, text):
+        token = f"\x00{len(tags)}\x00"
+        tags[token] = f"<b data-field='{name}'>{html.escape(text)}</b>"
+        return token
+
+    lines = calibration_lines(doc.get("calibration") or {}, (doc["model"].get("weighting") or {}).get("kind"),
+                              digits=6, mark=mark)
+    items = []
+    for line in lines:
+        text = html.escape(line)
+        for token, tagged in tags.items():
+            text = text.replace(token, tagged)
+        items.append(f"<li>{text}</li>")
+    return "<h2>Calibration checks</h2><ul>" + "".join(items) + "</ul>"
 
 
 def _pass_on_warnings(caught, degree: int) -> None:

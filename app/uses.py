@@ -77,31 +77,43 @@ def check_rows(choice, table, keep, sealed, revealed: bool, tolerance: float, re
     return out
 
 
-def calibration_lines(cal: dict, weight_kind=None) -> list[str]:
+def calibration_lines(cal: dict, weight_kind=None, *, digits: int = 4, mark=None) -> list[str]:
     """Lack of fit and detection limits of a choice's ``calibration`` record, one plain sentence each,
-    each naming its method."""
+    each naming its method (the page's panel and the report's section). ``digits``: significant digits
+    of the numbers; ``mark(name, text)`` may wrap the key numbers (``lof_F``, ``ich_dl``, ``hv_dl``)."""
+    def num(v, d=digits):
+        return number(v, d)
+
+    def key(name, text):
+        return mark(name, text) if mark is not None else text
+
     out = []
     lof = cal.get("lack_of_fit")
     if lof is not None:
         verdict = ("the curve misses a trend the replicates resolve" if lof["p_value"] < 0.01
                    else "no lack of fit at the 1% level")
         pe = lof["pure_error_sd"]
-        floor = (f"replicate scatter {number(pe)} times the stated uncertainties" if weight_kind == "uncertainty"
-                 else f"pure-error SD {number(pe)}, the noise floor for the CV RMSE")
-        out.append(f"Lack of fit against pure error: F = {number(lof['F'])} on ({number(lof['df_lack'], 3)}, "
-                   f"{lof['df_pure']}) df, p = {number(lof['p_value'], 2)}: {verdict}; {floor}.")
+        floor = (f"replicate scatter {num(pe)} times the stated uncertainties (near 1: as stated)"
+                 if weight_kind == "uncertainty" else f"pure-error SD {num(pe)}, the noise floor for the CV RMSE")
+        out.append(f"Lack of fit against pure error: F = {key('lof_F', num(lof['F']))} on ({num(lof['df_lack'], 3)}, "
+                   f"{lof['df_pure']}) df, p = {num(lof['p_value'], 2)}: {verdict}; {floor}.")
+    else:
+        out.append("Lack of fit: not tested (no x value is repeated, so there is no pure error to compare "
+                   "against).")
     lim = cal.get("limits") or {}
     ich, hv = lim.get("ich_q2"), lim.get("hubaux_vos")
     if ich is not None:
-        out.append(f"Limits by ICH Q2(R2) (3.3 and 10 sigma / S; sigma {number(ich['sigma'])}, "
-                   f"{ich['sigma_from']}; S {number(ich['slope'])}, slope at 0): detection {number(ich['detection_limit'])}, "
-                   f"quantitation {number(ich['quantitation_limit'])}.")
+        out.append(f"Limits by ICH Q2(R2) (3.3 and 10 sigma / S; sigma {num(ich['sigma'])}, "
+                   f"{ich['sigma_from']}; S {num(ich['slope'])}, slope at 0): detection "
+                   f"{key('ich_dl', num(ich['detection_limit']))}, quantitation {num(ich['quantitation_limit'])}.")
     if hv is not None:
         xd = ("beyond the calibrated range" if hv["detection_limit_x"] is None
-              else number(hv["detection_limit_x"]))
-        xc = "–" if hv["decision_limit_x"] is None else number(hv["decision_limit_x"])
+              else key("hv_dl", num(hv["detection_limit_x"])))
+        xc = "–" if hv["decision_limit_x"] is None else num(hv["decision_limit_x"])
         out.append(f"Limits by Hubaux & Vos (alpha = beta = {hv['alpha']:g}): decision level y_C "
-                   f"{number(hv['decision_level_y'])} (x_C {xc}), detection limit x_D {xd}.")
+                   f"{num(hv['decision_level_y'])} (x_C {xc}), detection limit x_D {xd}.")
     if lim.get("note") and ich is None and hv is None:
         out.append(f"Detection limits: {lim['note']}.")
+    elif ich is None and hv is None:
+        out.append("Detection limits: not given (the calibrated range does not include a blank, x = 0).")
     return out
