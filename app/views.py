@@ -8,6 +8,7 @@ read from the model when it announces a change (``version``, ``data_version``, `
 
 from __future__ import annotations
 
+import html
 import io
 import json
 import threading
@@ -26,7 +27,6 @@ from .panels import (calibration_md, numbers_md, plain, readback_glyphs, readbac
                      tolerance_md)
 from .text import NO_WEIGHTS, WEIGHT_MEANINGS, learning_reading
 
-_plain = plain      # the name the tests and the report know
 
 
 READBACK = "#3b6fb6"     # read-back marks: a colour no other mark of the page uses
@@ -300,7 +300,7 @@ class Workspace(param.Parameterized):
             text = report_in_subprocess(m.choice(self.notes.value or "").to_json(), m.source_path)
         except CurvewrightError as exc:
             m.status = f"Export failed: {exc}"
-            return io.StringIO(f"<p>Report not built: {plain(str(exc))}</p>")
+            return io.StringIO(f"<p>Report not built: {html.escape(str(exc))}</p>")   # an HTML file: HTML-escaped
         m.status = f"Report downloaded ({self.report.filename})."
         return io.StringIO(text)
 

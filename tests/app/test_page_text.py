@@ -89,3 +89,21 @@ def test_pasted_readings():
     assert n.tolist() == [1, 3]
     with pytest.raises(DataError, match="Readings, line 2: expected a number, got 'abc'"):
         parse_readings("1\nabc")
+
+
+def test_a_refused_report_download_escapes_the_message(monkeypatch):
+    """The report download is an HTML file: when the report is refused, the message inside it (which can
+    quote a column name or cell) is HTML-escaped, not Markdown-escaped."""
+    import app.report
+    from app.model import PageModel
+    from app.session import Session
+    from app.views import Workspace
+    from core.errors import DataError
+
+    def refuse(*_):
+        raise DataError('column \'<img src=x onerror="alert(1)">\' refused')
+
+    monkeypatch.setattr(app.report, "report_in_subprocess", refuse)
+    ws = Workspace(PageModel(Session(), SAMPLES / "furnace_yield.csv"))
+    text = ws._report().getvalue()
+    assert "<img" not in text and "&lt;img src=x onerror=&quot;alert(1)&quot;&gt;" in text
